@@ -1,0 +1,3 @@
+from surfcheck.cli import main
+
+main()

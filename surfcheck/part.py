@@ -1,0 +1,161 @@
+"""Part: a triangle mesh with face groups, its units and its source, plus cached adjacency."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+import scipy.sparse as sp
+
+from surfcheck.errors import InputError
+
+
+@dataclass(frozen=True, eq=False)
+class Part:
+    """A triangle mesh: vertices (n,3) float64, faces (m,3) int64, face_group (m,) int64.
+
+    ``group_names[g]`` names group ``g``. Lengths are in ``units``; ``source`` names the file it came
+    from. Adjacency is computed once, on first use.
+    """
+
+    vertices: np.ndarray
+    faces: np.ndarray
+    face_group: np.ndarray
+    group_names: tuple[str, ...]
+    units: str = "mm"
+    source: str = ""
+
+    def __post_init__(self) -> None:
+        V = np.ascontiguousarray(self.vertices, dtype=np.float64)
+        F = np.ascontiguousarray(self.faces, dtype=np.int64)
+        G = np.ascontiguousarray(self.face_group, dtype=np.int64)
+        where = self.source or "mesh"
+        if V.ndim != 2 or V.shape[1] != 3 or F.ndim != 2 or F.shape[1] != 3:
+            raise InputError(f"{where}: vertices must be (n, 3) and faces (m, 3)")
+        if len(V) == 0 or len(F) == 0:
+            raise InputError(f"{where}: the mesh is empty (no vertices or no triangles)")
+        if not np.isfinite(V).all():
+            bad = int((~np.isfinite(V).all(axis=1)).sum())
+            raise InputError(f"{where}: {bad} vertices have NaN or infinite coordinates; repair the export")
+        if F.min() < 0 or F.max() >= len(V):
+            raise InputError(f"{where}: a triangle refers to a vertex that does not exist")
+        if G.shape != (len(F),):
+            raise InputError(f"{where}: face_group must hold one group per triangle")
+        if len(G) and (G.min() < 0 or G.max() >= len(self.group_names)):
+            raise InputError(f"{where}: a face group has no name")
+        for name, value in (("vertices", V), ("faces", F), ("face_group", G)):
+            value.setflags(write=False)
+            object.__setattr__(self, name, value)
+        object.__setattr__(self, "group_names", tuple(self.group_names))
+
+    @property
+    def n_vertices(self) -> int:
+        return len(self.vertices)
+
+    @property
+    def n_faces(self) -> int:
+        return len(self.faces)
+
+    def group_index(self, name: str) -> int:
+        """The index of the group called ``name``; InputError naming the known groups otherwise."""
+        try:
+            return self.group_names.index(name)
+        except ValueError:
+            known = ", ".join(self.group_names) or "none"
+            raise InputError(f"{self.source or 'part'}: no group named {name!r} (groups: {known})") from None
+
+    @cached_property
+    def face_areas(self) -> np.ndarray:
+        """Area of each triangle."""
+        a, b, c = (self.vertices[self.faces[:, i]] for i in range(3))
+        return 0.5 * np.linalg.norm(np.cross(b - a, c - a), axis=1)
+
+    @cached_property
+    def half_edges(self) -> np.ndarray:
+        """(3m, 2) directed edges (F[:,0]->F[:,1], F[:,1]->F[:,2], F[:,2]->F[:,0]), face-major order."""
+        F = self.faces
+        return np.stack([F, np.roll(F, -1, axis=1)], axis=2).reshape(-1, 2)
+
+    @cached_property
+    def _edge_table(self) -> tuple[np.ndarray, np.ndarray]:
+        ordered = np.sort(self.half_edges, axis=1)
+        key = ordered[:, 0] * self.n_vertices + ordered[:, 1]
+        unique_keys, inverse = np.unique(key, return_inverse=True)
+        edges = np.stack(np.divmod(unique_keys, self.n_vertices), axis=1)
+        return edges, inverse.reshape(-1)
+
+    @property
+    def edges(self) -> np.ndarray:
+        """(e, 2) unique undirected edges, each as (low, high) vertex index."""
+        return self._edge_table[0]
+
+    @property
+    def half_edge_edge(self) -> np.ndarray:
+        """(3m,) the undirected edge index of each half edge."""
+        return self._edge_table[1]
+
+    @cached_property
+    def edge_faces(self) -> sp.csr_matrix:
+        """(e, m) sparse incidence: edge i lies on face j."""
+        m = self.n_faces
+        faces_of_half = np.repeat(np.arange(m), 3)
+        data = np.ones(3 * m, dtype=np.int8)
+        return sp.csr_matrix((data, (self.half_edge_edge, faces_of_half)), shape=(len(self.edges), m))
+
+    @cached_property
+    def edge_face_count(self) -> np.ndarray:
+        """(e,) how many faces use each edge: 1 on a boundary, 2 inside, more where non-manifold."""
+        return np.bincount(self.half_edge_edge, minlength=len(self.edges))
+
+    @cached_property
+    def vertex_faces(self) -> sp.csr_matrix:
+        """(n, m) sparse incidence: vertex i is a corner of face j."""
+        m = self.n_faces
+        data = np.ones(3 * m, dtype=np.int8)
+        return sp.csr_matrix(
+            (data, (self.faces.reshape(-1), np.repeat(np.arange(m), 3))), shape=(self.n_vertices, m)
+        )
+
+    @cached_property
+    def vertex_adjacency(self) -> sp.csr_matrix:
+        """(n, n) symmetric sparse adjacency of the mesh's edges."""
+        e = self.edges
+        n = self.n_vertices
+        data = np.ones(2 * len(e), dtype=np.int8)
+        rows = np.concatenate([e[:, 0], e[:, 1]])
+        cols = np.concatenate([e[:, 1], e[:, 0]])
+        return sp.csr_matrix((data, (rows, cols)), shape=(n, n))
+
+    @cached_property
+    def face_components(self) -> np.ndarray:
+        """(m,) the connected component of each face (faces joined through shared edges)."""
+        inc = self.edge_faces
+        adjacency = (inc.T @ inc).tocsr()
+        _, labels = sp.csgraph.connected_components(adjacency, directed=False)
+        return labels
+
+    @cached_property
+    def edge_lengths(self) -> np.ndarray:
+        """(e,) length of each unique edge."""
+        e = self.edges
+        return np.linalg.norm(self.vertices[e[:, 1]] - self.vertices[e[:, 0]], axis=1)
+
+    @property
+    def bounds(self) -> np.ndarray:
+        """(2, 3) lower and upper corner of the bounding box."""
+        return np.stack([self.vertices.min(axis=0), self.vertices.max(axis=0)])
+
+    @property
+    def diagonal(self) -> float:
+        """Length of the bounding box diagonal."""
+        lo, hi = self.bounds
+        return float(np.linalg.norm(hi - lo))
+
+    def faces_of_group(self, name: str) -> np.ndarray:
+        """Indices of the faces in the group called ``name``."""
+        return np.flatnonzero(self.face_group == self.group_index(name))
+
+    def with_groups(self, face_group: np.ndarray, group_names: tuple[str, ...] | list[str]) -> "Part":
+        """The same mesh with other face groups."""
+        return Part(self.vertices, self.faces, face_group, tuple(group_names), self.units, self.source)

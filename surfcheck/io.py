@@ -238,12 +238,13 @@ def _parse_ply(data: bytes, name: str) -> RawMesh:
 def _ply_groups(mesh, header: list[str], n_faces: int) -> tuple[np.ndarray, list[str]]:
     """The first integer face property named like a group; names from `comment group N NAME` lines."""
     raw = mesh.metadata.get("_ply_raw", {}).get("face", {}).get("data")
+    # trimesh gives a structured array for binary PLY and a dict of arrays for ASCII PLY.
+    names = raw.dtype.names if hasattr(raw, "dtype") else tuple(raw) if isinstance(raw, dict) else ()
     labels = None
-    if raw is not None and getattr(raw, "dtype", None) is not None and raw.dtype.names:
-        for prop in GROUP_PROPERTIES:
-            if prop in raw.dtype.names and np.issubdtype(raw[prop].dtype, np.integer):
-                labels = np.asarray(raw[prop]).reshape(-1).astype(np.int64)
-                break
+    for prop in GROUP_PROPERTIES:
+        if prop in (names or ()) and np.issubdtype(np.asarray(raw[prop]).dtype, np.integer):
+            labels = np.asarray(raw[prop]).reshape(-1).astype(np.int64)
+            break
     if labels is None or len(labels) != n_faces:
         return np.zeros(n_faces, dtype=np.int64), ["part"]
     named = {}

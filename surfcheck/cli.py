@@ -12,7 +12,7 @@ import typer
 from rich.console import Console
 from rich.table import Table
 
-from surfcheck.errors import SurfcheckError
+from surfcheck.errors import InputError, SurfcheckError
 from surfcheck.io import read_part
 from surfcheck.seams import SeamIndex
 from surfcheck.summary import part_summary
@@ -24,7 +24,7 @@ app = typer.Typer(
     add_completion=False,
     pretty_exceptions_enable=False,
 )
-out = Console(highlight=False)
+console = Console(highlight=False, width=None if sys.stdout.isatty() else 140)
 
 PART_ARG = typer.Argument(..., help="Mesh file: .stl (ASCII or binary), .obj (g/o groups) or .ply.")
 UNITS_OPT = typer.Option("mm", "--units", help="Length unit of the file's coordinates.")
@@ -40,6 +40,14 @@ def _fmt(x: float) -> str:
     return f"{x:.4g}"
 
 
+def _point(p: list[float]) -> str:
+    return " ".join(f"{x:.2f}" for x in p)
+
+
+def _groups(names: list[str]) -> str:
+    return " | ".join(names) if len(names) <= 2 else f"{len(names)} groups"
+
+
 @app.command()
 def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT) -> None:
     """Size, groups, boundaries, edge lengths and defects of a part."""
@@ -50,23 +58,23 @@ def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_
         return
     u = summary["units"]
     box = summary["bounding_box"]
-    out.print(f"[bold]{summary['source']}[/bold]  {summary['vertices']} vertices, {summary['faces']} triangles,"
+    console.print(f"[bold]{summary['source']}[/bold]  {summary['vertices']} vertices, {summary['faces']} triangles,"
               f" units {u}, {summary['merged_vertices']} duplicate vertices welded")
-    out.print(f"box {[_fmt(x) for x in box['min']]} .. {[_fmt(x) for x in box['max']]}"
+    console.print(f"box {[_fmt(x) for x in box['min']]} .. {[_fmt(x) for x in box['max']]}"
               f"  diagonal {_fmt(box['diagonal'])} {u}, area {_fmt(summary['area'])} {u}^2")
     e = summary["edge_length"]
-    out.print(f"edge length min {_fmt(e['min'])}, median {_fmt(e['median'])}, mean {_fmt(e['mean'])},"
+    console.print(f"edge length min {_fmt(e['min'])}, median {_fmt(e['median'])}, mean {_fmt(e['mean'])},"
               f" max {_fmt(e['max'])} {u}")
     table = Table("group", "triangles", f"area [{u}^2]", title="face groups")
     for g in summary["groups"]:
         table.add_row(g["name"], str(g["faces"]), _fmt(g["area"]))
-    out.print(table)
+    console.print(table)
     d = summary["defects"]
-    out.print(f"components {d['components']}, boundary loops {summary['boundary_loops']}"
+    console.print(f"components {d['components']}, boundary loops {summary['boundary_loops']}"
               f" ({d['boundary_edges']} boundary edges), group seams {summary['group_seams']},"
               f" misoriented edges {d['misoriented_edges']}")
     for warning in summary["warnings"]:
-        out.print(f"[yellow]warning:[/yellow] {warning}")
+        console.print(f"[yellow]warning:[/yellow] {warning}")
 
 
 @app.command()
@@ -83,12 +91,24 @@ def loops(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OP
         return
     table = Table("id", f"length [{units}]", "vertices", "closed", "groups", "start", "end",
                   title=f"loops, chains and seams of {part}")
+    for column in table.columns:
+        column.no_wrap = True
     for kind in ("loops", "chains", "seams"):
         for item in document[kind]:
             table.add_row(item["id"], _fmt(item["length"]), str(item["vertices"]), "yes" if item["closed"] else "no",
-                          " | ".join(item["groups"]), " ".join(_fmt(x) for x in item["start"]),
-                          " ".join(_fmt(x) for x in item["end"]))
-    out.print(table)
+                          _groups(item["groups"]), _point(item["start"]), _point(item["end"]))
+    console.print(table)
+
+
+@app.command()
+def demo(out: Path = typer.Option(Path("surfcheck-demo"), "--out", help="Folder for the sample parts and results.")) -> None:
+    """Build the sample parts of the demo scenario and run every command on them."""
+    from surfcheck.demo import run_demo
+
+    if out.exists() and not out.is_dir():
+        raise InputError(f"{out}: exists and is not a folder; give another --out")
+    run_demo(out, say=console.print)
+    console.print(f"results in {out}/")
 
 
 def main() -> None:

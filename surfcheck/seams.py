@@ -3,7 +3,7 @@
 Ids: `loop-N` (closed boundary loops), `chain-N.K` (loop N split where the boundary turns sharply or
 the group beside it changes), `seam-N` (where the face group changes: across shared edges, or between
 separate shells whose boundaries touch within a tolerance). Numbering follows a deterministic order
-(group names, then position), so the same file always gives the same ids.
+(group order in the file, then position), so the same file always gives the same ids.
 """
 
 from __future__ import annotations
@@ -270,11 +270,11 @@ def group_seams(part: Part, touch_tolerance: float | None = None) -> list[Curve]
                 vertices = np.roll(vertices, -int(np.argmin(vertices)))
             elif tuple(part.vertices[vertices[-1]]) < tuple(part.vertices[vertices[0]]):
                 vertices = vertices[::-1]
-            found.append(((part.group_names[a], part.group_names[b]), vertices, closed))
+            found.append(((a, b), vertices, closed))
     found.sort(key=lambda item: (item[0], tuple(np.round(part.vertices[item[1][0]], 9))))
     return [
-        Curve(f"seam-{i}", "seam", v, part.vertices[v], closed, names)
-        for i, (names, v, closed) in enumerate(found, start=1)
+        Curve(f"seam-{i}", "seam", v, part.vertices[v], closed, (part.group_names[a], part.group_names[b]))
+        for i, ((a, b), v, closed) in enumerate(found, start=1)
     ]
 
 

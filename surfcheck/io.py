@@ -7,6 +7,7 @@ absurd file fails fast with a one-line InputError. Writers go to a temporary nam
 
 from __future__ import annotations
 
+import io
 import os
 import re
 import tempfile
@@ -302,18 +303,43 @@ def _obj_bytes(part: Part) -> bytes:
     return ("\n".join(lines) + "\n").encode()
 
 
-def _ply_bytes(part: Part) -> bytes:
+def _ply_bytes(part: Part, vertex_fields: dict[str, np.ndarray] | None = None) -> bytes:
+    vertex_fields = vertex_fields or {}
     header = ["ply", "format binary_little_endian 1.0", f"comment units {part.units}"]
     header += [f"comment group {i} {name}" for i, name in enumerate(part.group_names)]
-    header += [f"element vertex {part.n_vertices}", "property double x", "property double y",
-               "property double z", f"element face {part.n_faces}",
-               "property list uchar int vertex_indices", "property int group", "end_header"]
+    header += [f"element vertex {part.n_vertices}", "property double x", "property double y", "property double z"]
+    header += [f"property double {name}" for name in vertex_fields]
+    header += [f"element face {part.n_faces}", "property list uchar int vertex_indices", "property int group",
+               "end_header"]
+    vertex = np.column_stack([part.vertices, *[np.asarray(v, dtype=float) for v in vertex_fields.values()]])
     face = np.zeros(part.n_faces, dtype=[("n", "u1"), ("v", "<i4", (3,)), ("group", "<i4")])
     face["n"] = 3
     face["v"] = part.faces
     face["group"] = part.face_group
     text = ("\n".join(header) + "\n").encode("ascii")
-    return text + part.vertices.astype("<f8").tobytes() + face.tobytes()
+    return text + vertex.astype("<f8").tobytes() + face.tobytes()
+
+
+def save_vertex_field(part: Part, values: np.ndarray, name: str, path: str | os.PathLike) -> Path:
+    """Write a per-vertex field: .ply (the part with a vertex property ``name``) or .csv (vertex
+    index, x, y, z, value; NaN where the field is undefined). Atomic like save_part."""
+    path = Path(path)
+    values = np.asarray(values, dtype=float).reshape(-1)
+    if len(values) != part.n_vertices:
+        raise InputError(f"{name}: {len(values)} values for {part.n_vertices} vertices")
+    suffix = path.suffix.lower()
+    if suffix == ".ply":
+        payload = _ply_bytes(part, {name.replace("-", "_"): values})
+    elif suffix == ".csv":
+        table = np.column_stack([np.arange(part.n_vertices), part.vertices, values])
+        stream = io.StringIO()
+        np.savetxt(stream, table, fmt=["%d", "%.9g", "%.9g", "%.9g", "%.9g"], delimiter=",",
+                   header=f"vertex,x,y,z,{name}", comments="")
+        payload = stream.getvalue().encode()
+    else:
+        raise InputError(f"{path}: a field is written as .ply, .csv or .png")
+    write_atomic(path, payload)
+    return path
 
 
 def _stl_bytes(part: Part) -> bytes:

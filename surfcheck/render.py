@@ -87,10 +87,11 @@ def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | o
     for column, (direction, name) in enumerate(zip(directions, names)):
         plotter.subplot(0, column)
         actor = plotter.add_mesh(surface.copy(), scalars=quantity, cmap="RdBu_r" if signed else "viridis",
-                         clim=limits, nan_color="#cccccc", show_scalar_bar=False, smooth_shading=True)
+                         clim=limits, nan_color="#cccccc", show_scalar_bar=False, smooth_shading=True,
+                         ambient=0.25, diffuse=0.75, specular=0.1)
         for seam in seams:
             _add_seam_tubes(pv, plotter, seam, 0.004 * diagonal)
-        plotter.add_text(name, font_size=10, position="upper_edge")
+        plotter.add_text(name, font_size=10, position="upper_right")
         centre = V.mean(axis=0)
         plotter.camera_position = [tuple(centre + 2.5 * diagonal * direction), tuple(centre), _up_vector(direction)]
         plotter.reset_camera()

@@ -22,11 +22,14 @@ from pathlib import Path
 import numpy as np
 from scipy.spatial.transform import Rotation
 
-from surfcheck.io import read_part, save_part
+from surfcheck.continuity import grade_seam
+from surfcheck.io import read_part, save_part, write_atomic
 from surfcheck.part import Part
 from surfcheck.seams import SeamIndex
 from surfcheck.shapes import Profile, add_normal_noise, arc, clothoid, corner, extrude, line, ramp
+from surfcheck.results import CAUTION, grade_document
 from surfcheck.summary import part_summary
+from surfcheck.tolerances import load_profile
 
 FILLET_RADIUS = 4.0  # mm
 BLEND_SPIRAL = 3.0  # mm of curvature ramp at each end of the G2 and G3 blends
@@ -114,8 +117,10 @@ def run_demo(out: str | Path, say=print) -> dict:
     """Build the samples in ``out``/samples and run every capability on them, writing results to ``out``."""
     out = Path(out)
     samples = write_samples(out / "samples")
-    results: dict = {"samples": {name: str(path) for name, path in samples.items()}, "inspect": {}, "loops": {}}
+    results: dict = {"samples": {name: str(path) for name, path in samples.items()}, "inspect": {}, "loops": {},
+                     "grades": {}}
     for name, path in samples.items():
+        stem = f"{Path(name).stem}-{Path(name).suffix[1:]}"
         loaded = read_part(path)
         summary = part_summary(loaded)
         index = SeamIndex(loaded.part)
@@ -123,14 +128,35 @@ def run_demo(out: str | Path, say=print) -> dict:
         results["loops"][name] = {"loops": len(index.loops), "chains": len(index.chains), "seams": len(index.seams)}
         say(f"{name}: {summary['vertices']} vertices, {summary['faces']} triangles, {len(summary['groups'])} groups,"
             f" {len(index.seams)} seams, {len(index.chains)} boundary chains")
-        _write_json(out / f"{Path(name).stem}-{Path(name).suffix[1:]}-inspect.json", summary)
+        _write_json(out / f"{stem}-inspect.json", summary)
+        if index.seams:
+            document = grade_all(loaded.part, index)
+            _write_json(out / f"{stem}-grades.json", document)
+            results["grades"][name] = {"/".join(s["groups"]): s["achieved"] for s in document["seams"]}
+            for seam in document["seams"]:
+                say(_seam_line(seam))
     _write_json(out / "demo.json", results)
+    say(CAUTION)
     return results
 
 
-def _write_json(path: Path, document: dict) -> None:
-    from surfcheck.io import write_atomic
+def _seam_line(seam: dict) -> str:
+    """One line per graded seam: what it achieved, what stopped it, what it was built as."""
+    achieved = f"G{seam['achieved']}" if seam["achieved"] >= 0 else "none"
+    limit = seam["limited_by"]
+    why = f", {limit['order']} {limit['status']}" if limit else ""
+    designed = DESIGNED.get(tuple(seam["groups"]))
+    return f"  {seam['id']} {' | '.join(seam['groups'])}: achieved {achieved}{why} (built as G{designed})"
 
+
+def grade_all(part: Part, index: SeamIndex, profile_name: str = "general") -> dict:
+    """Grade every group seam of a part with a named tolerance profile; the result document."""
+    profile = load_profile(profile_name).in_units(part.units)
+    grades = [grade_seam(part, seam, profile) for seam in index.seams]
+    return grade_document(part, grades, profile, None)
+
+
+def _write_json(path: Path, document: dict) -> None:
     write_atomic(path, (json.dumps(document, indent=2) + "\n").encode())
 
 

@@ -281,6 +281,9 @@ def write_atomic(path: Path, payload: bytes) -> None:
     try:
         with os.fdopen(handle, "wb") as stream:
             stream.write(payload)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(temporary, 0o666 & ~umask)  # mkstemp makes 0600; a written part is an ordinary file
         os.replace(temporary, path)
     except BaseException:
         if os.path.exists(temporary):

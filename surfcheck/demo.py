@@ -32,6 +32,7 @@ FILLET_RADIUS = 4.0  # mm
 BLEND_SPIRAL = 3.0  # mm of curvature ramp at each end of the G2 and G3 blends
 DEPTH = 24.0  # mm of extrusion
 EDGE = 0.5  # mm, mesh edge length
+REVIEW_REQUIREMENT = "G2"  # what the demo's reviews check: the styling surfaces of the shell
 SCAN_NOISE = 0.01  # mm, standard deviation along the normal (a structured-light scanner's order)
 SCAN_MOTION = (Rotation.from_euler("xyz", [12.0, -7.0, 31.0], degrees=True).as_matrix(), np.array([41.0, -13.0, 6.5]))
 
@@ -124,8 +125,30 @@ def run_demo(out: str | Path, say=print) -> dict:
         say(f"{name}: {summary['vertices']} vertices, {summary['faces']} triangles, {len(summary['groups'])} groups,"
             f" {len(index.seams)} seams, {len(index.chains)} boundary chains")
         _write_json(out / f"{Path(name).stem}-{Path(name).suffix[1:]}-inspect.json", summary)
+        if len(loaded.part.group_names) > 1:
+            review = out / f"{Path(name).stem}-{Path(name).suffix[1:]}-review"
+            results.setdefault("reviews", {})[name] = _write_review(loaded, index, review)
+            say(f"{name}: review page {review / 'index.html'} ({results['reviews'][name]['verdict']}"
+                f" for {REVIEW_REQUIREMENT})")
     _write_json(out / "demo.json", results)
     return results
+
+
+def _write_review(loaded, index: SeamIndex, folder: Path) -> dict:
+    """Grade every seam of a grouped sample against the general profile and write its review page."""
+    from surfcheck.continuity import grade_seam
+    from surfcheck.report import write_report
+    from surfcheck.results import parse_requirement, verdict
+    from surfcheck.tolerances import load_profile
+
+    profile = load_profile("general")
+    required = parse_requirement(REVIEW_REQUIREMENT)
+    grades = [grade_seam(loaded.part, seam, profile) for seam in index.seams]
+    page = write_report(loaded.part, grades, profile, required, folder,
+                        parameters={"stations": None, "spacing": None, "seams": ["all"]},
+                        summary=part_summary(loaded))
+    return {"page": str(page), "verdict": verdict(grades, required),
+            "achieved": {g.id: g.achieved for g in grades}}
 
 
 def _write_json(path: Path, document: dict) -> None:

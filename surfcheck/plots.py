@@ -24,6 +24,7 @@ from surfcheck.sections import Section
 
 SIDE_COLOURS = ("#3a6fb0", "#e08a1e")  # side A, side B
 MODEL_SAMPLES = 200
+MODEL_TURN = np.pi / 4  # a model curve is drawn until it turns this far from its tangent at the seam
 LOG_ABOVE = 20.0  # the along-seam axis turns logarithmic above the tolerance past this many tolerances
 
 
@@ -53,9 +54,14 @@ def station_sides(section: Section, station: StationResult) -> StationSides:
 def model_curve(side: SideEstimate, sign: float, length: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """A side's local model curve from its seam point into the side (``sign`` -1 for side A, whose
     data lies before the seam, +1 for side B) over ``length`` of arc: points (n, 2), arc length s (n,)
-    (signed like ``sign``) and curvature kappa + rate s (surfcheck's sign)."""
-    s = np.linspace(0.0, sign * length, MODEL_SAMPLES)
+    (signed like ``sign``) and curvature kappa + rate s (surfcheck's sign). The curve stops early
+    where it has turned MODEL_TURN from its tangent: a local model says little beyond that."""
     kappa0, rate = side.values[2], side.values[3]
+    s = np.linspace(0.0, sign * length, 4 * MODEL_SAMPLES)
+    turned = np.abs(kappa0 * s + 0.5 * rate * s * s) > MODEL_TURN
+    if turned.any():
+        length = max(abs(float(s[np.argmax(turned)])), 1e-12)
+    s = np.linspace(0.0, sign * length, MODEL_SAMPLES)
     # a plane curve turns left with positive signed curvature; surfcheck's curvature is positive where
     # the curve bends away from the outward normal (+y), turning it right: heading' = -kappa
     heading = side.values[1] - (kappa0 * s + 0.5 * rate * s * s)
@@ -66,12 +72,14 @@ def model_curve(side: SideEstimate, sign: float, length: float) -> tuple[np.ndar
 
 
 def section_curvature(section: Section, curvature) -> tuple[np.ndarray, np.ndarray]:
-    """Section x and the normal curvature in the section's cross direction of the station's strip
-    vertices, from per-vertex principal curvatures (k1, k2, d1, d2) by Euler's formula."""
+    """Section x and the normal curvature across the seam of the station's strip vertices: in the
+    direction of the section's cross vector projected into each vertex's tangent plane, from the
+    per-vertex principal curvatures (k1, k2, d1, d2) by Euler's formula."""
     ids = np.concatenate([section.ids_a, section.ids_b])
     x = np.concatenate([section.side_a[:, 0], section.side_b[:, 0]])
     c1, c2 = curvature.d1[ids] @ section.cross, curvature.d2[ids] @ section.cross
-    return x, curvature.k1[ids] * c1**2 + curvature.k2[ids] * c2**2
+    # the cross direction projected into each vertex's tangent plane (spanned by d1, d2), unit length
+    return x, (curvature.k1[ids] * c1**2 + curvature.k2[ids] * c2**2) / (c1**2 + c2**2)
 
 
 def worst_stations(grade: SeamGrade, count: int = 2) -> list[int]:
@@ -135,8 +143,8 @@ def plot_profiles(grade: SeamGrade, sections: list[Section], path: str | os.Path
         fig.legend(handles=_profile_legend(curvature is not None), loc="upper left", bbox_to_anchor=(0.02, 0.955),
                    ncols=6, fontsize=10, frameon=False)
     fig.text(0.02, 0.015, "Lines: each side's one-sided fit at the seam point (position, tangent, curvature,"
-             " curvature rate), drawn as the curve whose curvature runs linearly from there.\nBands: expanded"
-             f" uncertainty (k = {coverage:g}). Grey dots: the vertices' normal curvature across the seam from"
+             " curvature rate), drawn as the curve whose curvature runs linearly from there.\nBands and ±: expanded"
+             f" uncertainty U (k = {coverage:g}). Grey dots: the vertices' normal curvature across the seam from"
              " two-sided surface fits. Side A < 0 < side B.", fontsize=10, ha="left", va="bottom")
     return _save(plt, fig, path)
 
@@ -184,11 +192,13 @@ def _profile_column(fig, grid, column, section, station, sides, coverage, curvat
     top.plot([seam[0]], [seam[1]], marker="*", ms=13, color="#222222", ls="none", zorder=3)
     top.set_xlim(seam[0] - reach, seam[0] + reach)
     top.set_title(f"station {station.index} at s = {station.s:.3g} {u}", fontsize=12)
-    top.set_ylabel(f"height along the outward normal [{u}]")
+    top.set_ylabel(f"height along the\nnormal [{u}]")
     low.set_ylim(*_limits(np.concatenate(shown)))
     low.set_xlabel(f"across the seam, x [{u}]")
     low.set_ylabel(f"curvature [1/{u}]")
-    _annotate_jump(low, station, coverage, seam[0], u)
+    _annotate_jump(low, station, seam[0])
+    _annotate_orders(top, station, (0, 1), coverage, u)
+    _annotate_orders(low, station, (2, 3), coverage, u)
 
 
 def _limits(values: np.ndarray) -> tuple[float, float]:
@@ -199,16 +209,24 @@ def _limits(values: np.ndarray) -> tuple[float, float]:
     return low - margin, high + 3.0 * margin
 
 
-def _annotate_jump(ax, station: StationResult, coverage: float, x0: float, u: str) -> None:
-    """A double arrow between the two sides' curvatures at the seam, with the jump, U and the decision."""
+def _annotate_jump(ax, station: StationResult, x0: float) -> None:
+    """A double arrow between the two sides' curvatures at the seam."""
     ka, kb = station.curvature
-    g2 = station.orders[2]
     ax.annotate("", xy=(x0, kb), xytext=(x0, ka), arrowprops={"arrowstyle": "<->", "color": "#222222", "lw": 1.4})
-    text = (f"G2 jump {g2.value:.3g} ± {coverage * g2.uncertainty:.2g} 1/{u}\n"
-            f"(U, k = {coverage:g}); tolerance {g2.tolerance:.3g}: {g2.status}")
-    ax.text(0.98, 0.97, text, transform=ax.transAxes, ha="right", va="top", fontsize=10,
-            color=STATUS_TEXT[g2.status],
-            bbox={"boxstyle": "round", "facecolor": "white", "edgecolor": STATUS_TEXT[g2.status], "alpha": 0.9})
+
+
+def _annotate_orders(ax, station: StationResult, orders: tuple[int, ...], coverage: float, u: str) -> None:
+    """The station's value ± expanded uncertainty, tolerance and decision of the given orders, in a box
+    framed in the colour of the worst decision."""
+    lines, worst = [], "ok"
+    for k in orders:
+        r = station.orders[k]
+        unit = UNITS[k].format(u=u)
+        lines.append(f"{ORDERS[k]} {r.value:.3g} ± {coverage * r.uncertainty:.2g} {unit}, tol {r.tolerance:.3g}: {r.status}")
+        worst = "fail" if "fail" in (worst, r.status) else ("not resolved" if r.status != "ok" else worst)
+    ax.text(0.98, 0.97, "\n".join(lines), transform=ax.transAxes, ha="right", va="top", fontsize=9.5,
+            color=STATUS_TEXT[worst],
+            bbox={"boxstyle": "round", "facecolor": "white", "edgecolor": STATUS_TEXT[worst], "alpha": 0.9})
 
 
 def plot_along_seam(grade: SeamGrade, path: str | os.PathLike, *, coverage: float) -> Path:

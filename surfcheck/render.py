@@ -25,8 +25,6 @@ STATUS_TEXT = {"ok": "#137a69", "fail": "#b0172c", "not resolved": "#5f6368"}  #
 PERCENTILES = (2.0, 98.0)  # colour limits; common practice, no published source
 TILT_DEG = 30.0  # views are tilted this far out of the best-facing direction; common practice
 CANDIDATE_DIRECTIONS = 400
-VIEW_PIXELS = (900, 760)  # each view's render, before cropping
-BACKGROUND = (255, 255, 255)
 DPI = 100
 
 
@@ -179,56 +177,50 @@ def _add_seam(pv, plotter, seam: SeamOverlay, radius: float) -> None:
             start = i
     if seam.markers is not None:
         for point, state in zip(np.atleast_2d(seam.markers), seam.marker_status):
-            ball = pv.Sphere(radius=2.2 * radius, center=point, theta_resolution=16, phi_resolution=12)
+            ball = pv.Sphere(radius=1.7 * radius, center=point, theta_resolution=16, phi_resolution=12)
             plotter.add_mesh(ball, color=STATUS_COLOURS.get(state, "#000000"), ambient=0.3)
 
 
-def _camera(view: View, V: np.ndarray) -> tuple[list, float]:
-    """PyVista camera position and parallel scale that frame the view's target."""
-    if view.focus is None:
-        lo, hi = V.min(axis=0), V.max(axis=0)
-        centre = 0.5 * (lo + hi)
-        half = 0.5 * float(np.linalg.norm(hi - lo))
-    else:
-        centre, half = view.focus, view.radius
-    eye = centre + 4.0 * max(half, 1e-9) * view.direction
-    return [tuple(eye), tuple(centre), tuple(view.up)], half
-
-
-def _crop(image: np.ndarray, pad: int = 12) -> np.ndarray:
-    """The image cut to the box of its non-background pixels, with a margin."""
-    ink = np.any(np.abs(image[..., :3].astype(int) - BACKGROUND) > 8, axis=2)
-    if not ink.any():
-        return image
-    rows, cols = np.flatnonzero(ink.any(axis=1)), np.flatnonzero(ink.any(axis=0))
-    r0, r1 = max(rows[0] - pad, 0), min(rows[-1] + pad + 1, image.shape[0])
-    c0, c1 = max(cols[0] - pad, 0), min(cols[-1] + pad + 1, image.shape[1])
-    return image[r0:r1, c0:c1]
+def _camera(view: View, V: np.ndarray, aspect: float) -> tuple[list, float]:
+    """PyVista camera position and parallel scale that frame the view's target (the whole part, or the
+    vertices within the close-up ball) in a panel of width / height ``aspect``, with a small margin."""
+    target = V if view.focus is None else V[np.linalg.norm(V - view.focus, axis=1) <= view.radius]
+    if len(target) == 0:
+        target = np.asarray(view.focus, dtype=float)[None, :]
+    right = np.cross(-view.direction, view.up)
+    x, y = target @ right, target @ view.up
+    centre = target.mean(axis=0)
+    centre = centre + (0.5 * (x.max() + x.min()) - centre @ right) * right + (0.5 * (y.max() + y.min()) - centre @ view.up) * view.up
+    half = max(0.5 * float(np.ptp(y)), 0.5 * float(np.ptp(x)) / aspect, 1e-9)
+    depth = float(np.linalg.norm(np.ptp(V, axis=0))) + 1e-9
+    eye = centre + 2.0 * depth * view.direction
+    return [tuple(eye), tuple(centre), tuple(view.up)], 1.06 * half
 
 
 def render_views(V: np.ndarray, F: np.ndarray, values: np.ndarray, views: list[View], *, cmap: str,
-                 limits: tuple[float, float], seams: list[SeamOverlay]) -> list[np.ndarray]:
-    """One RGB image per view of the part coloured by ``values`` (clipped to ``limits``), seams on top."""
+                 limits: tuple[float, float], seams: list[SeamOverlay], pixels: tuple[int, int]) -> list[np.ndarray]:
+    """One RGB image of ``pixels`` (width, height) per view of the part coloured by ``values``
+    (clipped to ``limits``), seams on top."""
     pv = _pyvista()
     V = np.asarray(V, dtype=float)
     surface = _surface(pv, V, F)
     surface.point_data["field"] = np.where(np.isfinite(values), values, np.nan)
-    plotter = pv.Plotter(off_screen=True, window_size=VIEW_PIXELS, border=False)
+    plotter = pv.Plotter(off_screen=True, window_size=list(pixels), border=False)
     plotter.set_background("white")
     plotter.add_mesh(surface, scalars="field", cmap=cmap, clim=limits, nan_color="#c8c8c8", show_scalar_bar=False,
                      smooth_shading=True, ambient=0.35, diffuse=0.65, specular=0.0)
     diagonal = float(np.linalg.norm(np.ptp(V, axis=0)))
     for seam in seams:
-        _add_seam(pv, plotter, seam, 0.0035 * diagonal)
+        _add_seam(pv, plotter, seam, 0.003 * diagonal)
     plotter.enable_parallel_projection()
     images = []
     for view in views:
-        position, half = _camera(view, V)
+        position, half = _camera(view, V, pixels[0] / pixels[1])
         plotter.camera_position = position
-        plotter.camera.parallel_scale = 1.02 * half * VIEW_PIXELS[1] / min(VIEW_PIXELS)
-        plotter.camera.clipping_range = (1e-3 * half, 10.0 * half)
+        plotter.camera.parallel_scale = half
+        plotter.camera.clipping_range = (1e-3 * diagonal, 5.0 * diagonal)
         plotter.render()
-        images.append(_crop(plotter.screenshot(return_img=True)))
+        images.append(plotter.screenshot(return_img=True))
     plotter.close()
     return images
 
@@ -251,23 +243,24 @@ def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | o
     views = views or overview_views(np.asarray(V, float), np.asarray(F))
     limits = limits or colour_limits(values, signed)
     cmap = "RdBu_r" if signed else "viridis"
-    images = render_views(V, F, values, views, cmap=cmap, limits=limits, seams=seams)
+    width, height = size
+    pad, gap, head, foot = 16, 20, (86 if title else 40), 150
+    panel = ((width - 2 * pad - gap * (len(views) - 1)) // len(views), height - head - foot)
+    images = render_views(V, F, values, views, cmap=cmap, limits=limits, seams=seams, pixels=panel)
 
-    fig = plt.figure(figsize=(size[0] / DPI, size[1] / DPI), dpi=DPI)
-    grid = fig.add_gridspec(2, len(images), height_ratios=[1.0, 0.075], hspace=0.18, wspace=0.04,
-                            left=0.02, right=0.98, top=0.90 if title else 0.95, bottom=0.13)
+    fig = plt.figure(figsize=(width / DPI, height / DPI), dpi=DPI)
     for k, (image, view) in enumerate(zip(images, views)):
-        ax = fig.add_subplot(grid[0, k])
-        ax.imshow(image, interpolation="antialiased")
-        ax.set_title(view.name, fontsize=13)
-        ax.set_axis_off()
+        x0 = pad + k * (panel[0] + gap)
+        fig.figimage(image, xo=x0, yo=foot, origin="upper")
+        fig.text((x0 + 0.5 * panel[0]) / width, (foot + panel[1] + 8) / height, view.name, fontsize=13,
+                 ha="center", va="bottom")
     if title:
-        fig.suptitle(title, fontsize=15, x=0.02, ha="left")
-    bar_ax = fig.add_subplot(grid[1, :] if not seams else grid[1, : max(1, len(images) - 1)])
+        fig.text(pad / width, 1.0 - 12 / height, title, fontsize=15, ha="left", va="top")
+    bar_right = width - pad - (300 if seams else 0)
+    bar_ax = fig.add_axes([(pad + 30) / width, 82 / height, (bar_right - pad - 60) / width, 30 / height])
     finite = values[np.isfinite(values)]
-    extend = _extend(finite, limits)
     mappable = plt.cm.ScalarMappable(norm=matplotlib.colors.Normalize(*limits), cmap=cmap)
-    bar = fig.colorbar(mappable, cax=bar_ax, orientation="horizontal", extend=extend)
+    bar = fig.colorbar(mappable, cax=bar_ax, orientation="horizontal", extend=_extend(finite, limits))
     bar.ax.tick_params(labelsize=12)
     bar.ax.xaxis.set_major_formatter(matplotlib.ticker.FormatStrFormatter("%.3g"))
     bar.set_label(f"{quantity} [{unit}]", fontsize=13)
@@ -275,11 +268,11 @@ def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | o
     rule = (f"|value| {high:g}th percentile" if signed else f"{low:g}th to {high:g}th percentile")
     stated = f"colour limits {limits[0]:.3g} .. {limits[1]:.3g} {unit} ({rule}); "
     stated += f"field range {finite.min():.3g} .. {finite.max():.3g}" if finite.size else "no finite values"
-    fig.text(0.02, 0.015, stated, fontsize=11, ha="left", va="bottom")
+    fig.text(pad / width, 8 / height, stated, fontsize=11, ha="left", va="bottom")
     if seams:
         handles = [Patch(color=c, label=f"seam {s}") for s, c in STATUS_COLOURS.items()]
-        fig.legend(handles=handles, loc="lower right", bbox_to_anchor=(0.98, 0.06), fontsize=12, frameon=False,
-                   ncols=1, title="per station", title_fontsize=12)
+        fig.legend(handles=handles, loc="lower right", bbox_to_anchor=(1.0 - pad / width, 30 / height),
+                   fontsize=12, frameon=False, title="result per station", title_fontsize=12)
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     temporary = path.with_name(f".{path.stem}.tmp.png")

@@ -118,3 +118,17 @@ def test_bad_arguments_are_input_errors():
         jump_fields(V, F, degree=6)
     with pytest.raises(InputError):
         jump_fields(V, F, radius=0.0)
+
+
+def test_vertex_field_names_and_units():
+    from surfcheck.fields import QUANTITIES, vertex_field
+    from tests.surfaces import sphere
+
+    s = sphere(2.0, 4)
+    for quantity in QUANTITIES:
+        values, unit = vertex_field(s.V, s.F, quantity, units="mm")
+        assert values.shape == (len(s.V),) and unit in ("1/mm", "1/mm^2", "deg")
+    gaussian, unit = vertex_field(s.V, s.F, "gaussian")
+    assert unit == "1/mm^2" and np.median(gaussian) == pytest.approx(0.25, rel=0.02)  # K = 1/R^2
+    with pytest.raises(InputError):
+        vertex_field(s.V, s.F, "torsion")

@@ -135,35 +135,41 @@ def fit_height(
     """Weighted least-squares fits z ~ sum c_ab x^a y^b for each row of the (c, k) point arrays.
 
     ``w`` is (c, k), or (c, k, h) for h weightings of the same points (such as the two sides of a
-    cut). The normal equations are assembled from the power sums sum_k w x^a y^b, each computed once
-    as a batched matrix product, and solved in batch. Returns the coefficients, (c, p) or (c, h, p),
-    in the order of ``exponents``, and the weighted residual sums of squares, (c,) or (c, h).
-    Coordinates should be scaled to about unit size for conditioning.
+    cut). The normal equations are assembled from the power sums sum_k w x^a y^b, each computed once,
+    and solved in batch. Returns the coefficients, (c, p) or (c, h, p), in the order of
+    ``exponents``, and the weighted residual sums of squares, (c,) or (c, h). Coordinates should be
+    scaled to about unit size for conditioning.
     """
-    W = w[:, :, None] if w.ndim == 2 else w
-    pairs = sorted({(ai + aj, bi + bj) for ai, bi in exponents for aj, bj in exponents})
-    where = {e: i for i, e in enumerate(pairs)}
-    xp, yp = [np.ones_like(x)], [np.ones_like(y)]
-    for _ in range(max(a for a, _ in pairs)):
+    pairs = {(ai + aj, bi + bj) for ai, bi in exponents for aj, bj in exponents}
+    xp = [None, x]  # x^0 is implicit
+    for _ in range(2, max(a for a, _ in pairs) + 1):
         xp.append(xp[-1] * x)
-    for _ in range(max(b for _, b in pairs)):
-        yp.append(yp[-1] * y)
-    monomial = np.empty((x.shape[0], len(pairs), x.shape[1]))  # (c, q, k)
-    for i, (a, b) in enumerate(pairs):
-        np.multiply(xp[a], yp[b], out=monomial[:, i])
-    sums = np.matmul(monomial, W)  # (c, q, h)
-    basis = [where[e] for e in exponents]
-    rhs = np.matmul(monomial[:, basis] * z[:, None, :], W)  # (c, p, h)
-    gram = [[where[(ai + aj, bi + bj)] for aj, bj in exponents] for ai, bi in exponents]
-    c, p, h = len(x), len(exponents), W.shape[2]
-    M = sums[:, np.array(gram)].transpose(0, 3, 1, 2).reshape(c * h, p, p)
-    b = rhs.transpose(0, 2, 1).reshape(c * h, p)
-    coef = _cholesky_solve(M, b)
-    residual = np.matmul((z * z)[:, None, :], W)[:, 0, :].reshape(c * h) - np.einsum("cp,cp->c", coef, b)
-    residual = np.maximum(residual, 0.0)
+    top_y = max(b for _, b in pairs)
+    weights = [w] if w.ndim == 2 else [w[:, :, i] for i in range(w.shape[2])]
+    p = len(exponents)
+    results = []
+    for weight in weights:
+        yp = [weight]  # the weight rides on the y powers
+        for _ in range(top_y):
+            yp.append(yp[-1] * y)
+        sums = {e: _power_sum(xp[e[0]], yp[e[1]]) for e in pairs}
+        M = np.empty((len(x), p, p))
+        for i, (ai, bi) in enumerate(exponents):
+            for j, (aj, bj) in enumerate(exponents):
+                M[:, i, j] = sums[(ai + aj, bi + bj)]
+        zy = {b: yp[b] * z for b in {b for _, b in exponents}}
+        rhs = np.stack([_power_sum(xp[a], zy[b]) for a, b in exponents], axis=1)
+        coef = _cholesky_solve(M, rhs)
+        residual = np.einsum("ck,ck->c", zy[0], z) - np.einsum("cp,cp->c", coef, rhs)
+        results.append((coef, np.maximum(residual, 0.0)))
     if w.ndim == 2:
-        return coef, residual
-    return coef.reshape(c, h, p), residual.reshape(c, h)
+        return results[0]
+    return np.stack([c for c, _ in results], axis=1), np.stack([r for _, r in results], axis=1)
+
+
+def _power_sum(xa: np.ndarray | None, yb: np.ndarray) -> np.ndarray:
+    """Row sums of xa * yb, with xa None meaning x^0."""
+    return yb.sum(axis=1) if xa is None else np.einsum("ck,ck->c", xa, yb)
 
 
 def graph_curvatures(fx, fy, fxx, fxy, fyy):

@@ -213,7 +213,7 @@ def _progress(items: list, what: str, quiet: bool):
 @app.command("map")
 def map_field(
     part: Path = PART_ARG,
-    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean or gaussian."),
+    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean, gaussian, jump or tangent-jump."),
     out_file: Path = typer.Option(..., "--out", help="Output: .ply (vertex property), .csv or .png (heatmap)."),
     units: str = UNITS_OPT,
 ) -> None:

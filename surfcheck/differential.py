@@ -24,12 +24,13 @@ from scipy.spatial import cKDTree
 
 from surfcheck.errors import InputError
 
-CHUNK = 1024  # vertices fitted together: their (CHUNK, k) work arrays stay within the CPU caches
-NOISE_SAMPLE = 4000  # vertices used to estimate the noise level for the default radius
-CLEAN_RADIUS = 2.5  # default radius on a clean mesh, in mean edge lengths
-NOISE_GAIN = 6.0  # radius grows as (noise / edge) ** (1/3) times this, in mean edge lengths
-MAX_RADIUS = 6.0  # upper limit of the default radius, in mean edge lengths
-HALF_DISC_OFFSET = 4.0 / (3.0 * np.pi)  # centroid of a half disc of radius 1 from its centre
+CHUNK_POINTS = 1 << 15  # neighbour slots fitted together (vertices times neighbours per vertex)
+PILOT_SAMPLE = 4000  # vertices of the pilot fits that choose the default radius
+MIN_RADIUS = 2.5  # default radius limits, in mean edge lengths: enough points for a quadric ...
+MAX_RADIUS = 6.0  # ... and a bounded cost (the count of neighbours grows as the radius squared)
+SCALE_RADIUS = 4.0  # pilot radius for the curvature scale, in mean edge lengths
+RADIUS_GAIN = 2.2  # constant of the error-balancing radius, fitted on noisy tori (docs/curvature.md)
+HALF_DISC = 0.5  # centroid offset / RMS radius of the neighbours of a vertex on a straight open edge
 
 
 def _as_mesh(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -131,36 +132,44 @@ def _cholesky_solve(M: np.ndarray, b: np.ndarray) -> np.ndarray:
 def fit_height(
     x: np.ndarray, y: np.ndarray, z: np.ndarray, w: np.ndarray, exponents: list[tuple[int, int]]
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Weighted least-squares fits z ~ sum c_ab x^a y^b, one per row of the (c, k) arrays.
+    """Weighted least-squares fits z ~ sum c_ab x^a y^b for each row of the (c, k) point arrays.
 
-    The normal equations are assembled from the power sums sum_k w x^a y^b (each computed once) and
-    solved in batch. Returns the coefficients (c, p) in the order of ``exponents`` and the weighted
-    residual sum of squares (c,). Coordinates should be scaled to about unit size for conditioning.
+    ``w`` is (c, k), or (c, k, h) for h weightings of the same points (such as the two sides of a
+    cut). The normal equations are assembled from the power sums sum_k w x^a y^b, each computed once,
+    and solved in batch. Returns the coefficients, (c, p) or (c, h, p), in the order of
+    ``exponents``, and the weighted residual sums of squares, (c,) or (c, h). Coordinates should be
+    scaled to about unit size for conditioning.
     """
-    top = 2 * max(max(e) for e in exponents) + 1
+    pairs = {(ai + aj, bi + bj) for ai, bi in exponents for aj, bj in exponents}
     xp = [None, x]  # x^0 is implicit
-    yp = [w, w * y]  # the weight rides on the y powers
-    for _ in range(2, top):
+    for _ in range(2, max(a for a, _ in pairs) + 1):
         xp.append(xp[-1] * x)
-        yp.append(yp[-1] * y)
-    moment: dict[tuple[int, int], np.ndarray] = {}
-
-    def power_sum(xa, yb, key):
-        if key not in moment:
-            moment[key] = yb.sum(axis=1) if xa is None else np.einsum("ck,ck->c", xa, yb)
-        return moment[key]
-
+    top_y = max(b for _, b in pairs)
+    weights = [w] if w.ndim == 2 else [w[:, :, i] for i in range(w.shape[2])]
     p = len(exponents)
-    M = np.empty((len(x), p, p))
-    for i, (ai, bi) in enumerate(exponents):
-        for j in range(i, p):
-            a, b = ai + exponents[j][0], bi + exponents[j][1]
-            M[:, i, j] = M[:, j, i] = power_sum(xp[a], yp[b], (a, b))
-    zy = {b: yp[b] * z for b in {b for _, b in exponents}}
-    rhs = np.stack([power_sum(xp[a], zy[b], ("z", a, b)) for a, b in exponents], axis=1)
-    coef = _cholesky_solve(M, rhs)
-    residual = np.einsum("ck,ck->c", zy[0], z) - np.einsum("cp,cp->c", coef, rhs)
-    return coef, np.maximum(residual, 0.0)
+    results = []
+    for weight in weights:
+        yp = [weight]  # the weight rides on the y powers
+        for _ in range(top_y):
+            yp.append(yp[-1] * y)
+        sums = {e: _power_sum(xp[e[0]], yp[e[1]]) for e in pairs}
+        M = np.empty((len(x), p, p))
+        for i, (ai, bi) in enumerate(exponents):
+            for j, (aj, bj) in enumerate(exponents):
+                M[:, i, j] = sums[(ai + aj, bi + bj)]
+        zy = {b: yp[b] * z for b in {b for _, b in exponents}}
+        rhs = np.stack([_power_sum(xp[a], zy[b]) for a, b in exponents], axis=1)
+        coef = _cholesky_solve(M, rhs)
+        residual = np.einsum("ck,ck->c", zy[0], z) - np.einsum("cp,cp->c", coef, rhs)
+        results.append((coef, np.maximum(residual, 0.0)))
+    if w.ndim == 2:
+        return results[0]
+    return np.stack([c for c, _ in results], axis=1), np.stack([r for _, r in results], axis=1)
+
+
+def _power_sum(xa: np.ndarray | None, yb: np.ndarray) -> np.ndarray:
+    """Row sums of xa * yb, with xa None meaning x^0."""
+    return yb.sum(axis=1) if xa is None else np.einsum("ck,ck->c", xa, yb)
 
 
 def graph_curvatures(fx, fy, fxx, fxy, fyy):
@@ -189,14 +198,20 @@ def graph_curvatures(fx, fy, fxx, fxy, fyy):
     return k1, k2, v1
 
 
+def jet_shape(coef: np.ndarray):
+    """graph_curvatures of jets whose coefficients follow jet_exponents (1, x, y, x^2, xy, y^2, ...)."""
+    return graph_curvatures(coef[:, 1], coef[:, 2], 2.0 * coef[:, 3], coef[:, 4], 2.0 * coef[:, 5])
+
+
 @dataclass(frozen=True, eq=False)
 class Curvature:
     """Per-vertex principal curvatures from jet fits (see principal_curvatures).
 
     k1 >= k2 (1/unit), d1 and d2 their unit directions, normals the fitted unit normals, neighbours
     the number of points in each fit, quality in [0, 1] (1: a full, balanced neighbourhood with at
-    least twice as many points as unknowns; 0: a half disc or worse, as on an open boundary, or no
-    more points than unknowns), radius the neighbourhood radius used (part units).
+    least twice as many points as unknowns; 0: a half disc or worse, as on a straight open boundary,
+    or no more points than unknowns; below 0.5, treat the value as extrapolated), radius the
+    neighbourhood radius used (part units).
     """
 
     k1: np.ndarray
@@ -258,7 +273,8 @@ class Neighbourhoods:
         if idx.ndim == 1:
             dist, idx = dist[:, None], idx[:, None]
         valid = np.isfinite(dist)
-        idx = np.where(valid, idx, rows[:, None])
+        used = max(int(valid.sum(axis=1).max()), 1)  # drop the slots no vertex of the chunk fills
+        valid, idx = valid[:, :used], np.where(valid[:, :used], idx[:, :used], rows[:, None])
         t1, t2, n = frames
         x, y, z, facing = (np.zeros(idx.shape) for _ in range(4))
         for j in range(3):  # one coordinate at a time: contiguous gathers, no (c, k, 3) temporaries
@@ -278,14 +294,19 @@ class Neighbourhoods:
         return tuple(np.ascontiguousarray(self.normals[:, j]) for j in range(3))
 
 
-def _chunks(n: int):
-    return [np.arange(s, min(s + CHUNK, n)) for s in range(0, n, CHUNK)]
+def _chunks(n: int, size: int):
+    return [np.arange(s, min(s + size, n)) for s in range(0, n, size)]
 
 
-def _in_parallel(task, n: int) -> list:
-    """Run ``task(rows)`` over vertex chunks on all cores (numpy and the k-d tree release the GIL)."""
+def _in_parallel(task, n: int, count: int) -> list:
+    """Run ``task(rows)`` over vertex chunks on all cores (numpy and the k-d tree release the GIL).
+
+    Chunks hold about CHUNK_POINTS neighbour slots (``count`` per vertex), so their work arrays stay
+    within the CPU caches and the memory in flight is bounded whatever the mesh size.
+    """
+    size = max(CHUNK_POINTS // max(count, 1), 64)
     with ThreadPoolExecutor(max_workers=os.cpu_count() or 1) as pool:
-        return list(pool.map(task, _chunks(n)))
+        return list(pool.map(task, _chunks(n, size)))
 
 
 def _jet_at(hood: Neighbourhoods, rows: np.ndarray, degree: int):
@@ -294,56 +315,81 @@ def _jet_at(hood: Neighbourhoods, rows: np.ndarray, degree: int):
     t1, t2 = tangent_frames(n)
     x, y, z, w = hood.local(rows, (t1, t2, n))
     coef, residual = fit_height(x, y, z, w, jet_exponents(degree))
-    return coef, (t1, t2, n), residual, (x, y, w)
+    return coef, (t1, t2, n), residual, (x, y, z, w)
 
 
 def _neighbourhood_quality(x: np.ndarray, y: np.ndarray, w: np.ndarray, unknowns: int):
-    """Quality in [0, 1] from the balance of the neighbourhood and its size (see Curvature)."""
+    """Quality in [0, 1] from the balance of the neighbourhood and its size (see Curvature).
+
+    Balance compares the offset of the neighbours' centroid from the vertex with their RMS distance:
+    about 0 for a full disc, HALF_DISC (0.5 measured on grid meshes; 0.6 for a continuous half disc)
+    for a vertex on a straight open edge. Size counts the points beyond the unknowns.
+    """
     count = w.sum(axis=1)
     safe = np.maximum(count, 1.0)
-    reach = np.sqrt(np.max(w * (x * x + y * y), axis=1))
+    spread = np.sqrt((w * (x * x + y * y)).sum(axis=1) / safe)
     offset = np.hypot((w * x).sum(axis=1), (w * y).sum(axis=1)) / safe
-    balance = 1.0 - (offset / (HALF_DISC_OFFSET * np.maximum(reach, 1e-300))) ** 2
+    balance = 1.0 - (offset / (HALF_DISC * np.maximum(spread, 1e-300))) ** 2
     size = (count - unknowns) / unknowns
     return np.clip(balance, 0.0, 1.0) * np.clip(size, 0.0, 1.0), count.astype(np.int64)
 
 
-def _noise_level(hood: Neighbourhoods) -> float:
-    """Median residual RMS of quadric jets on a fixed sample of vertices, corrected for the unknowns."""
+def _jet_curvatures(hood: Neighbourhoods, rows: np.ndarray, degree: int):
+    """k1, k2 (1/unit), d1, d2, fitted normal, neighbour count, quality and residual RMS at ``rows``."""
+    exponents = jet_exponents(degree)
+    coef, (t1, t2, n), residual, (x, y, _, w) = _jet_at(hood, rows, degree)
+    fx, fy = coef[:, 1], coef[:, 2]
+    k1, k2, v1 = jet_shape(coef)
+    normal = _unit(n - fx[:, None] * t1 - fy[:, None] * t2)
+    d1 = _unit(v1[:, :1] * (t1 + fx[:, None] * n) + v1[:, 1:] * (t2 + fy[:, None] * n))
+    d2 = np.cross(normal, d1)
+    quality, count = _neighbourhood_quality(x, y, w, len(exponents))
+    dof = np.maximum(count - len(exponents), 1)
+    rms = np.sqrt(residual / dof) * hood.radius
+    return k1 / hood.radius, k2 / hood.radius, d1, d2, normal, count, quality, rms
+
+
+def _pilot_rows(hood: Neighbourhoods) -> np.ndarray:
     used = np.flatnonzero(np.linalg.norm(hood.normals, axis=1) > 0)
-    rows = used[np.linspace(0, len(used) - 1, min(NOISE_SAMPLE, len(used))).astype(np.int64)]
-    _, _, residual, (_, _, w) = _jet_at(hood, rows, 2)
-    dof = w.sum(axis=1) - len(jet_exponents(2))
-    fitted = dof > 3
-    if not fitted.any():
-        return 0.0
-    return float(np.median(np.sqrt(residual[fitted] / dof[fitted])) * hood.radius)
+    return used[np.linspace(0, len(used) - 1, min(PILOT_SAMPLE, len(used))).astype(np.int64)]
+
+
+def _noise_level(hood: Neighbourhoods) -> float:
+    """Median residual RMS of quadric jets over ``hood`` on the pilot sample of vertices."""
+    *_, count, _, rms = _jet_curvatures(hood, _pilot_rows(hood), 2)
+    fitted = count > len(jet_exponents(2)) + 3
+    return float(np.median(rms[fitted])) if fitted.any() else 0.0
 
 
 def _default_radius(hood: Neighbourhoods, edge: float) -> float:
-    sigma = _noise_level(hood.at_radius(CLEAN_RADIUS * edge))
-    return edge * float(np.clip(NOISE_GAIN * np.cbrt(sigma / edge), CLEAN_RADIUS, MAX_RADIUS))
+    sigma = _noise_level(hood.at_radius(MIN_RADIUS * edge))
+    k1, k2, *_ = _jet_curvatures(hood.at_radius(SCALE_RADIUS * edge), _pilot_rows(hood), 2)
+    bend = np.nanpercentile(np.maximum(np.abs(k1), np.abs(k2)), 90)
+    length = min(1.0 / max(bend, 1e-300), 1e3 * edge)
+    balanced = RADIUS_GAIN * (sigma * edge) ** 0.2 * length**0.6
+    return float(np.clip(balanced, MIN_RADIUS * edge, MAX_RADIUS * edge))
 
 
 def noise_level(V: np.ndarray, F: np.ndarray) -> float:
     """Estimated standard deviation of the vertices' scatter about a smooth surface (part units).
 
-    Quadric jets over CLEAN_RADIUS mean edge lengths on a fixed sample of NOISE_SAMPLE vertices: the
+    Quadric jets over MIN_RADIUS mean edge lengths on a fixed sample of PILOT_SAMPLE vertices: the
     median of their residual RMS. On a clean mesh this is the small misfit of a quadric; on a scan, the
     scanner's noise.
     """
     V, F = _as_mesh(V, F)
     hood = Neighbourhoods.of_mesh(V, F, vertex_normals(V, F))
-    return _noise_level(hood.at_radius(CLEAN_RADIUS * mean_edge_length(V, F)))
+    return _noise_level(hood.at_radius(MIN_RADIUS * mean_edge_length(V, F)))
 
 
 def default_radius(V: np.ndarray, F: np.ndarray) -> float:
-    """The neighbourhood radius used when none is given (part units); see docs/curvature.md.
+    """The neighbourhood radius used when none is given (part units); derivation in docs/curvature.md.
 
-    r = e * clip(NOISE_GAIN * (sigma / e) ** (1/3), CLEAN_RADIUS, MAX_RADIUS) with e the mean edge
-    length and sigma the noise_level. The noise-induced error of a quadric's curvature falls as
-    sigma / (e r^3) (r^2 from the second derivative, r from the count of points) while its bias grows as
-    r^2, so a clean mesh is fitted tight and a noisy one wide.
+    A quadric jet's curvature error from noise sigma falls as sigma e / r^3 (e the mean edge length)
+    while its bias grows as r^2 / L^3 (L a curvature length). The sum is least at
+    r = RADIUS_GAIN (sigma e)^(1/5) L^(3/5), clipped to MIN_RADIUS..MAX_RADIUS edge lengths. sigma is
+    the noise_level; L is one over the 90th percentile of max(|k1|, |k2|) of pilot fits at
+    SCALE_RADIUS edge lengths, so the radius suits the tighter features (fillets) of the part.
     """
     V, F = _as_mesh(V, F)
     return _default_radius(Neighbourhoods.of_mesh(V, F, vertex_normals(V, F)), mean_edge_length(V, F))
@@ -360,29 +406,14 @@ def principal_curvatures(V: np.ndarray, F: np.ndarray, radius: float | None = No
     uses get NaN.
     """
     V, F = _as_mesh(V, F)
-    if degree < 2:
+    if not 2 <= degree <= 4:
         raise InputError(f"curvature needs a jet of degree 2 to 4, not {degree}")
-    exponents = jet_exponents(degree)
     normals = vertex_normals(V, F)
     hood = Neighbourhoods.of_mesh(V, F, normals)
     if radius is None:
         radius = _default_radius(hood, mean_edge_length(V, F))
     hood = hood.at_radius(radius)
-    slot = {e: i for i, e in enumerate(exponents)}
-
-    def fit(rows: np.ndarray):
-        coef, (t1, t2, n), _, (x, y, w) = _jet_at(hood, rows, degree)
-        fx, fy = coef[:, slot[(1, 0)]], coef[:, slot[(0, 1)]]
-        k1, k2, v1 = graph_curvatures(
-            fx, fy, 2.0 * coef[:, slot[(2, 0)]], coef[:, slot[(1, 1)]], 2.0 * coef[:, slot[(0, 2)]]
-        )
-        normal = _unit(n - fx[:, None] * t1 - fy[:, None] * t2)
-        d1 = _unit(v1[:, :1] * (t1 + fx[:, None] * n) + v1[:, 1:] * (t2 + fy[:, None] * n))
-        d2 = np.cross(normal, d1)
-        quality, count = _neighbourhood_quality(x, y, w, len(exponents))
-        return k1 / radius, k2 / radius, d1, d2, normal, count, quality
-
-    parts = list(zip(*_in_parallel(fit, len(V))))
+    parts = list(zip(*_in_parallel(lambda rows: _jet_curvatures(hood, rows, degree)[:7], len(V), hood.count)))
     k1, k2, d1, d2, normal, count, quality = (np.concatenate(p) for p in parts)
     unused = np.linalg.norm(normals, axis=1) == 0
     for field in (k1, k2, d1, d2, normal):

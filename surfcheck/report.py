@@ -20,7 +20,7 @@ import numpy as np
 from surfcheck import __version__
 from surfcheck.continuity import ORDERS, SeamGrade
 from surfcheck.errors import InputError
-from surfcheck.fields import vertex_field
+from surfcheck.fields import vertex_fields
 from surfcheck.io import LoadResult, write_atomic
 from surfcheck.page import Picture, review_page
 from surfcheck.part import Part
@@ -151,7 +151,7 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
     part_pictures: list[Picture] = []
     seam_pictures: dict[str, list[Picture]] = {}
     with _Steps(2 + len(PART_QUANTITIES) + 3 * len(grades), quiet) as steps:
-        fields = {q: vertex_field(part, q) for q in dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY])}
+        fields = vertex_fields(part, dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY]))
         curvature = principal_curvatures(V, F)
         limits = {q: colour_limits(f.values, f.signed) for q, f in fields.items()}
         steps.advance("fields")

@@ -131,16 +131,24 @@ def print_grades(document: dict) -> None:
     console.print(f"[dim]{document['caution']}[/dim]")
 
 
+SEAM_OPT = typer.Option(..., "--seam", help="GROUP_A:GROUP_B, an id from `surfcheck loops`, or `all`. Repeatable.")
+TOLERANCE_OPT = typer.Option("general", "--tolerance", help="Profile name (styling, general, scan) or a .toml file.")
+REQUIRE_OPT = typer.Option(None, "--require", help="G0, G1, G2 or G3: exit 1 if a seam falls short.")
+STATIONS_OPT = typer.Option(None, "--stations", min=3, help="Stations per seam (default from its length).")
+SPACING_OPT = typer.Option(None, "--spacing", help="Distance between stations, in part units.")
+
+
 @app.command()
 def grade(
     part: Path = PART_ARG,
-    seam: list[str] = typer.Option(..., "--seam", help="GROUP_A:GROUP_B, an id from `surfcheck loops`, or `all`. Repeatable."),
-    tolerance: str = typer.Option("general", "--tolerance", help="Profile name (styling, general, scan) or a .toml file."),
-    require: Optional[str] = typer.Option(None, "--require", help="G0, G1, G2 or G3: exit 1 if a seam falls short."),
-    stations: Optional[int] = typer.Option(None, "--stations", min=3, help="Stations per seam (default from its length)."),
-    spacing: Optional[float] = typer.Option(None, "--spacing", help="Distance between stations, in part units."),
+    seam: list[str] = SEAM_OPT,
+    tolerance: str = TOLERANCE_OPT,
+    require: Optional[str] = REQUIRE_OPT,
+    stations: Optional[int] = STATIONS_OPT,
+    spacing: Optional[float] = SPACING_OPT,
     units: str = UNITS_OPT,
     as_json: bool = JSON_OPT,
+    report_dir: Optional[Path] = typer.Option(None, "--report", help="Also write the review page (index.html, pictures, result.json) to this folder."),
 ) -> None:
     """Grade G0..G3 continuity across seams, with uncertainty, against a tolerance profile."""
     from surfcheck.continuity import grade_seam
@@ -149,6 +157,10 @@ def grade(
 
     required = parse_requirement(require)
     profile = load_profile(tolerance)
+    if report_dir is not None:
+        from surfcheck.report import check_folder, write_report
+
+        check_folder(report_dir)
     loaded = read_part(part, units=units)
     index = SeamIndex(loaded.part)
     chosen = {}
@@ -160,13 +172,33 @@ def grade(
     grades = []
     for curve in _progress(list(chosen.values()), "grading seams", quiet=as_json):
         grades.append(grade_seam(loaded.part, curve, profile.in_units(loaded.part.units), stations, spacing))
-    document = grade_document(loaded.part, grades, profile, required,
-                              {"stations": stations, "spacing": spacing, "seams": list(seam)})
+    parameters = {"stations": stations, "spacing": spacing, "seams": list(seam)}
+    document = grade_document(loaded.part, grades, profile, required, parameters)
+    if report_dir is not None:
+        page = write_report(loaded.part, grades, profile, required, report_dir, parameters=parameters,
+                            summary=part_summary(loaded), quiet=as_json)
     if as_json:
         print_json(document)
     else:
         print_grades(document)
+        if report_dir is not None:
+            console.print(f"review page: {page}")
     raise typer.Exit(1 if document["verdict"] == "fail" else 0)
+
+
+@app.command()
+def report(
+    part: Path = PART_ARG,
+    seam: list[str] = SEAM_OPT,
+    out: Path = typer.Option(..., "--out", help="Folder for index.html, its pictures and result.json."),
+    tolerance: str = TOLERANCE_OPT,
+    require: Optional[str] = REQUIRE_OPT,
+    stations: Optional[int] = STATIONS_OPT,
+    spacing: Optional[float] = SPACING_OPT,
+    units: str = UNITS_OPT,
+) -> None:
+    """Grade seams and write a review page with pictures and plots (DIR/index.html, DIR/result.json)."""
+    grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out)
 
 
 def _progress(items: list, what: str, quiet: bool):
@@ -181,7 +213,7 @@ def _progress(items: list, what: str, quiet: bool):
 @app.command("map")
 def map_field(
     part: Path = PART_ARG,
-    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean or gaussian."),
+    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean, gaussian, jump or tangent-jump."),
     out_file: Path = typer.Option(..., "--out", help="Output: .ply (vertex property), .csv or .png (heatmap)."),
     units: str = UNITS_OPT,
 ) -> None:

@@ -26,8 +26,9 @@ from surfcheck.continuity import grade_seam
 from surfcheck.io import read_part, save_part, write_atomic
 from surfcheck.part import Part
 from surfcheck.seams import SeamIndex
+from surfcheck.report import write_report
 from surfcheck.shapes import Profile, add_normal_noise, arc, clothoid, corner, extrude, line, ramp
-from surfcheck.results import CAUTION, grade_document
+from surfcheck.results import CAUTION, grade_document, parse_requirement, verdict
 from surfcheck.summary import part_summary
 from surfcheck.tolerances import load_profile
 
@@ -35,6 +36,7 @@ FILLET_RADIUS = 4.0  # mm
 BLEND_SPIRAL = 3.0  # mm of curvature ramp at each end of the G2 and G3 blends
 DEPTH = 24.0  # mm of extrusion
 EDGE = 0.5  # mm, mesh edge length
+REVIEW_REQUIREMENT = "G2"  # what the demo's reviews check: the styling surfaces of the shell
 SCAN_NOISE = 0.01  # mm, standard deviation along the normal (a structured-light scanner's order)
 SCAN_MOTION = (Rotation.from_euler("xyz", [12.0, -7.0, 31.0], degrees=True).as_matrix(), np.array([41.0, -13.0, 6.5]))
 
@@ -130,11 +132,7 @@ def run_demo(out: str | Path, say=print) -> dict:
             f" {len(index.seams)} seams, {len(index.chains)} boundary chains")
         _write_json(out / f"{stem}-inspect.json", summary)
         if index.seams:
-            document = grade_all(loaded.part, index)
-            _write_json(out / f"{stem}-grades.json", document)
-            results["grades"][name] = {"/".join(s["groups"]): s["achieved"] for s in document["seams"]}
-            for seam in document["seams"]:
-                say(_seam_line(seam))
+            results["grades"][name] = _grade_and_review(loaded, index, out / f"{stem}-review", say)
     _write_json(out / "demo.json", results)
     say(CAUTION)
     return results
@@ -149,11 +147,20 @@ def _seam_line(seam: dict) -> str:
     return f"  {seam['id']} {' | '.join(seam['groups'])}: achieved {achieved}{why} (built as G{designed})"
 
 
-def grade_all(part: Part, index: SeamIndex, profile_name: str = "general") -> dict:
-    """Grade every group seam of a part with a named tolerance profile; the result document."""
-    profile = load_profile(profile_name).in_units(part.units)
+def _grade_and_review(loaded, index: SeamIndex, folder: Path, say) -> dict:
+    """Grade every seam of a grouped sample against the general profile, print one line per seam and
+    write its review page (with result.json)."""
+    part = loaded.part
+    profile = load_profile("general").in_units(part.units)
+    required = parse_requirement(REVIEW_REQUIREMENT)
     grades = [grade_seam(part, seam, profile) for seam in index.seams]
-    return grade_document(part, grades, profile, None)
+    for seam in grade_document(part, grades, profile, required)["seams"]:
+        say(_seam_line(seam))
+    page = write_report(part, grades, profile, required, folder,
+                        parameters={"stations": None, "spacing": None, "seams": ["all"]},
+                        summary=part_summary(loaded))
+    say(f"  review page {page} ({verdict(grades, required)} for {REVIEW_REQUIREMENT})")
+    return {"page": str(page), "verdict": verdict(grades, required), "achieved": {g.id: g.achieved for g in grades}}
 
 
 def _write_json(path: Path, document: dict) -> None:

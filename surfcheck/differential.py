@@ -24,7 +24,7 @@ from scipy.spatial import cKDTree
 
 from surfcheck.errors import InputError
 
-CHUNK = 1024  # vertices fitted together: their (CHUNK, k) work arrays stay within the CPU caches
+CHUNK_POINTS = 1 << 15  # neighbour slots fitted together (vertices times neighbours per vertex)
 PILOT_SAMPLE = 4000  # vertices of the pilot fits that choose the default radius
 MIN_RADIUS = 2.5  # default radius limits, in mean edge lengths: enough points for a quadric ...
 MAX_RADIUS = 6.0  # ... and a bounded cost (the count of neighbours grows as the radius squared)
@@ -132,36 +132,44 @@ def _cholesky_solve(M: np.ndarray, b: np.ndarray) -> np.ndarray:
 def fit_height(
     x: np.ndarray, y: np.ndarray, z: np.ndarray, w: np.ndarray, exponents: list[tuple[int, int]]
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Weighted least-squares fits z ~ sum c_ab x^a y^b, one per row of the (c, k) arrays.
+    """Weighted least-squares fits z ~ sum c_ab x^a y^b for each row of the (c, k) point arrays.
 
-    The normal equations are assembled from the power sums sum_k w x^a y^b (each computed once) and
-    solved in batch. Returns the coefficients (c, p) in the order of ``exponents`` and the weighted
-    residual sum of squares (c,). Coordinates should be scaled to about unit size for conditioning.
+    ``w`` is (c, k), or (c, k, h) for h weightings of the same points (such as the two sides of a
+    cut). The normal equations are assembled from the power sums sum_k w x^a y^b, each computed once,
+    and solved in batch. Returns the coefficients, (c, p) or (c, h, p), in the order of
+    ``exponents``, and the weighted residual sums of squares, (c,) or (c, h). Coordinates should be
+    scaled to about unit size for conditioning.
     """
-    top = 2 * max(max(e) for e in exponents) + 1
+    pairs = {(ai + aj, bi + bj) for ai, bi in exponents for aj, bj in exponents}
     xp = [None, x]  # x^0 is implicit
-    yp = [w, w * y]  # the weight rides on the y powers
-    for _ in range(2, top):
+    for _ in range(2, max(a for a, _ in pairs) + 1):
         xp.append(xp[-1] * x)
-        yp.append(yp[-1] * y)
-    moment: dict[tuple[int, int], np.ndarray] = {}
-
-    def power_sum(xa, yb, key):
-        if key not in moment:
-            moment[key] = yb.sum(axis=1) if xa is None else np.einsum("ck,ck->c", xa, yb)
-        return moment[key]
-
+    top_y = max(b for _, b in pairs)
+    weights = [w] if w.ndim == 2 else [w[:, :, i] for i in range(w.shape[2])]
     p = len(exponents)
-    M = np.empty((len(x), p, p))
-    for i, (ai, bi) in enumerate(exponents):
-        for j in range(i, p):
-            a, b = ai + exponents[j][0], bi + exponents[j][1]
-            M[:, i, j] = M[:, j, i] = power_sum(xp[a], yp[b], (a, b))
-    zy = {b: yp[b] * z for b in {b for _, b in exponents}}
-    rhs = np.stack([power_sum(xp[a], zy[b], ("z", a, b)) for a, b in exponents], axis=1)
-    coef = _cholesky_solve(M, rhs)
-    residual = np.einsum("ck,ck->c", zy[0], z) - np.einsum("cp,cp->c", coef, rhs)
-    return coef, np.maximum(residual, 0.0)
+    results = []
+    for weight in weights:
+        yp = [weight]  # the weight rides on the y powers
+        for _ in range(top_y):
+            yp.append(yp[-1] * y)
+        sums = {e: _power_sum(xp[e[0]], yp[e[1]]) for e in pairs}
+        M = np.empty((len(x), p, p))
+        for i, (ai, bi) in enumerate(exponents):
+            for j, (aj, bj) in enumerate(exponents):
+                M[:, i, j] = sums[(ai + aj, bi + bj)]
+        zy = {b: yp[b] * z for b in {b for _, b in exponents}}
+        rhs = np.stack([_power_sum(xp[a], zy[b]) for a, b in exponents], axis=1)
+        coef = _cholesky_solve(M, rhs)
+        residual = np.einsum("ck,ck->c", zy[0], z) - np.einsum("cp,cp->c", coef, rhs)
+        results.append((coef, np.maximum(residual, 0.0)))
+    if w.ndim == 2:
+        return results[0]
+    return np.stack([c for c, _ in results], axis=1), np.stack([r for _, r in results], axis=1)
+
+
+def _power_sum(xa: np.ndarray | None, yb: np.ndarray) -> np.ndarray:
+    """Row sums of xa * yb, with xa None meaning x^0."""
+    return yb.sum(axis=1) if xa is None else np.einsum("ck,ck->c", xa, yb)
 
 
 def graph_curvatures(fx, fy, fxx, fxy, fyy):
@@ -188,6 +196,11 @@ def graph_curvatures(fx, fy, fxx, fxy, fyy):
     degenerate = np.linalg.norm(v1, axis=1) <= 1e-12 * (np.abs(k1) + 1e-300)
     v1[degenerate] = (1.0, 0.0)
     return k1, k2, v1
+
+
+def jet_shape(coef: np.ndarray):
+    """graph_curvatures of jets whose coefficients follow jet_exponents (1, x, y, x^2, xy, y^2, ...)."""
+    return graph_curvatures(coef[:, 1], coef[:, 2], 2.0 * coef[:, 3], coef[:, 4], 2.0 * coef[:, 5])
 
 
 @dataclass(frozen=True, eq=False)
@@ -260,7 +273,8 @@ class Neighbourhoods:
         if idx.ndim == 1:
             dist, idx = dist[:, None], idx[:, None]
         valid = np.isfinite(dist)
-        idx = np.where(valid, idx, rows[:, None])
+        used = max(int(valid.sum(axis=1).max()), 1)  # drop the slots no vertex of the chunk fills
+        valid, idx = valid[:, :used], np.where(valid[:, :used], idx[:, :used], rows[:, None])
         t1, t2, n = frames
         x, y, z, facing = (np.zeros(idx.shape) for _ in range(4))
         for j in range(3):  # one coordinate at a time: contiguous gathers, no (c, k, 3) temporaries
@@ -280,14 +294,19 @@ class Neighbourhoods:
         return tuple(np.ascontiguousarray(self.normals[:, j]) for j in range(3))
 
 
-def _chunks(n: int):
-    return [np.arange(s, min(s + CHUNK, n)) for s in range(0, n, CHUNK)]
+def _chunks(n: int, size: int):
+    return [np.arange(s, min(s + size, n)) for s in range(0, n, size)]
 
 
-def _in_parallel(task, n: int) -> list:
-    """Run ``task(rows)`` over vertex chunks on all cores (numpy and the k-d tree release the GIL)."""
+def _in_parallel(task, n: int, count: int) -> list:
+    """Run ``task(rows)`` over vertex chunks on all cores (numpy and the k-d tree release the GIL).
+
+    Chunks hold about CHUNK_POINTS neighbour slots (``count`` per vertex), so their work arrays stay
+    within the CPU caches and the memory in flight is bounded whatever the mesh size.
+    """
+    size = max(CHUNK_POINTS // max(count, 1), 64)
     with ThreadPoolExecutor(max_workers=os.cpu_count() or 1) as pool:
-        return list(pool.map(task, _chunks(n)))
+        return list(pool.map(task, _chunks(n, size)))
 
 
 def _jet_at(hood: Neighbourhoods, rows: np.ndarray, degree: int):
@@ -296,7 +315,7 @@ def _jet_at(hood: Neighbourhoods, rows: np.ndarray, degree: int):
     t1, t2 = tangent_frames(n)
     x, y, z, w = hood.local(rows, (t1, t2, n))
     coef, residual = fit_height(x, y, z, w, jet_exponents(degree))
-    return coef, (t1, t2, n), residual, (x, y, w)
+    return coef, (t1, t2, n), residual, (x, y, z, w)
 
 
 def _neighbourhood_quality(x: np.ndarray, y: np.ndarray, w: np.ndarray, unknowns: int):
@@ -318,12 +337,9 @@ def _neighbourhood_quality(x: np.ndarray, y: np.ndarray, w: np.ndarray, unknowns
 def _jet_curvatures(hood: Neighbourhoods, rows: np.ndarray, degree: int):
     """k1, k2 (1/unit), d1, d2, fitted normal, neighbour count, quality and residual RMS at ``rows``."""
     exponents = jet_exponents(degree)
-    slot = {e: i for i, e in enumerate(exponents)}
-    coef, (t1, t2, n), residual, (x, y, w) = _jet_at(hood, rows, degree)
-    fx, fy = coef[:, slot[(1, 0)]], coef[:, slot[(0, 1)]]
-    k1, k2, v1 = graph_curvatures(
-        fx, fy, 2.0 * coef[:, slot[(2, 0)]], coef[:, slot[(1, 1)]], 2.0 * coef[:, slot[(0, 2)]]
-    )
+    coef, (t1, t2, n), residual, (x, y, _, w) = _jet_at(hood, rows, degree)
+    fx, fy = coef[:, 1], coef[:, 2]
+    k1, k2, v1 = jet_shape(coef)
     normal = _unit(n - fx[:, None] * t1 - fy[:, None] * t2)
     d1 = _unit(v1[:, :1] * (t1 + fx[:, None] * n) + v1[:, 1:] * (t2 + fy[:, None] * n))
     d2 = np.cross(normal, d1)
@@ -397,7 +413,7 @@ def principal_curvatures(V: np.ndarray, F: np.ndarray, radius: float | None = No
     if radius is None:
         radius = _default_radius(hood, mean_edge_length(V, F))
     hood = hood.at_radius(radius)
-    parts = list(zip(*_in_parallel(lambda rows: _jet_curvatures(hood, rows, degree)[:7], len(V))))
+    parts = list(zip(*_in_parallel(lambda rows: _jet_curvatures(hood, rows, degree)[:7], len(V), hood.count)))
     k1, k2, d1, d2, normal, count, quality = (np.concatenate(p) for p in parts)
     unused = np.linalg.norm(normals, axis=1) == 0
     for field in (k1, k2, d1, d2, normal):

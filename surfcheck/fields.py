@@ -1,4 +1,5 @@
-"""Per-vertex fields by name, for maps and heatmaps: the quantity, its values, unit and sign."""
+"""Per-vertex scalar fields by name, with their units and sign: what `surfcheck map` writes and
+render.py paints."""
 
 from __future__ import annotations
 
@@ -8,6 +9,7 @@ import numpy as np
 
 from surfcheck.differential import principal_curvatures
 from surfcheck.errors import InputError
+from surfcheck.jumpfield import jump_fields
 from surfcheck.part import Part
 
 # quantity -> (unit pattern, signed, description)
@@ -16,7 +18,11 @@ QUANTITIES = {
     "k2": ("1/{u}", True, "smaller principal curvature"),
     "mean": ("1/{u}", True, "mean curvature (k1 + k2) / 2"),
     "gaussian": ("1/{u}^2", True, "Gaussian curvature k1 k2"),
+    "jump": ("1/{u}", False, "curvature jump (one-sided fits)"),
+    "tangent-jump": ("deg", False, "tangent jump (one-sided normals)"),
 }
+_CURVATURES = ("k1", "k2", "mean", "gaussian")
+_JUMPS = ("jump", "tangent-jump")
 
 
 @dataclass(frozen=True)
@@ -30,11 +36,44 @@ class VertexField:
     description: str
 
 
+def _values(V: np.ndarray, F: np.ndarray, quantities, radius: float | None) -> dict[str, np.ndarray]:
+    """The named fields; the jet fits and the jump fits each run once, whatever is asked of them."""
+    unknown = [q for q in quantities if q not in QUANTITIES]
+    if unknown:
+        raise InputError(f"unknown quantity {unknown[0]!r}: choose one of {', '.join(QUANTITIES)}")
+    out = {}
+    if any(q in _CURVATURES for q in quantities):
+        c = principal_curvatures(V, F, radius)
+        out.update(k1=c.k1, k2=c.k2, mean=c.mean, gaussian=c.gaussian)
+    if any(q in _JUMPS for q in quantities):
+        jumps = jump_fields(V, F, radius)
+        out.update({"jump": jumps.curvature, "tangent-jump": jumps.tangent})
+    return {q: out[q] for q in quantities}
+
+
+def field_values(
+    V: np.ndarray, F: np.ndarray, quantity: str, units: str = "mm", radius: float | None = None
+) -> tuple[np.ndarray, str]:
+    """The field ``quantity`` (one of QUANTITIES) at every vertex and its unit label.
+
+    k1, k2, mean and gaussian come from the jet fits (surfcheck.differential.principal_curvatures),
+    jump and tangent-jump from the one-sided fits (surfcheck.jumpfield.jump_fields). ``radius`` is the
+    neighbourhood radius in part units (None: the default rule). NaN marks vertices without a value.
+    """
+    values = _values(V, F, [quantity], radius)[quantity]
+    return values, QUANTITIES[quantity][0].format(u=units)
+
+
+def vertex_fields(part: Part, quantities, radius: float | None = None) -> dict[str, VertexField]:
+    """Several named fields of a part (see QUANTITIES), sharing their fits."""
+    values = _values(part.vertices, part.faces, list(quantities), radius)
+    out = {}
+    for quantity, v in values.items():
+        unit, signed, description = QUANTITIES[quantity]
+        out[quantity] = VertexField(quantity, v, unit.format(u=part.units), signed, description)
+    return out
+
+
 def vertex_field(part: Part, quantity: str) -> VertexField:
-    """Compute the named per-vertex field on a part (see QUANTITIES)."""
-    if quantity not in QUANTITIES:
-        raise InputError(f"unknown quantity {quantity!r}: use one of {', '.join(QUANTITIES)}")
-    unit, signed, description = QUANTITIES[quantity]
-    curvature = principal_curvatures(part.vertices, part.faces)
-    values = {"k1": curvature.k1, "k2": curvature.k2, "mean": curvature.mean, "gaussian": curvature.gaussian}
-    return VertexField(quantity, values[quantity], unit.format(u=part.units), signed, description)
+    """One named per-vertex field of a part (see QUANTITIES)."""
+    return vertex_fields(part, [quantity])[quantity]

@@ -1,7 +1,15 @@
-"""Off-screen pictures with PyVista: per-vertex heatmaps and seams drawn as tubes coloured by result.
+"""Pictures of per-vertex fields: PyVista renders the views off-screen, matplotlib lays them out.
 
-Works without a display or GPU (VTK falls back to software rendering). Colour limits are robust
-percentiles of the field, stated on the colour bar; signed fields get a diverging map centred on zero.
+Works without a display or GPU (VTK falls back to software rendering). Each picture holds one or more
+views of the part coloured by the field, seams drawn as tubes coloured by their per-station result, one
+colour bar titled with the quantity and its unit whose limits are robust percentiles of the field
+(stated under the bar; arrows on the bar where values are clipped); signed fields get a diverging map
+centred on zero.
+
+Views are chosen from the geometry: a direction is scored by the projected area of the faces that
+face it (sum of A_f max(0, n_f . d) over a Fibonacci lattice of directions, Gonzalez 2010, Math.
+Geosci. 42:49), the best one for the whole part or for the faces near a seam, then tilted by TILT_DEG
+so that the surface is seen at an angle, not edge-on or flat.
 """
 
 from __future__ import annotations
@@ -13,26 +21,36 @@ from pathlib import Path
 import numpy as np
 
 STATUS_COLOURS = {"ok": "#1f9e89", "fail": "#d7263d", "not resolved": "#9aa0a6"}
+STATUS_TEXT = {"ok": "#137a69", "fail": "#b0172c", "not resolved": "#5f6368"}  # darker, for text
 PERCENTILES = (2.0, 98.0)  # colour limits; common practice, no published source
+TILT_DEG = 30.0  # views are tilted this far out of the best-facing direction; common practice
+CANDIDATE_DIRECTIONS = 400
+DPI = 100
 
 
 @dataclass(frozen=True)
 class SeamOverlay:
-    """A seam to draw over a heatmap: ordered points and one status per point."""
+    """A seam to draw over a heatmap: ordered points and one status per point (a key of
+    STATUS_COLOURS); ``markers`` are extra points (stations) drawn as small balls, ``marker_status``
+    their statuses."""
 
     points: np.ndarray
     status: tuple[str, ...]
     label: str = ""
+    markers: np.ndarray | None = None
+    marker_status: tuple[str, ...] = ()
 
 
-def _pyvista():
-    import pyvista as pv
-    import vtk
+@dataclass(frozen=True)
+class View:
+    """A camera: ``direction`` from the focus towards the eye, ``up`` for the picture's vertical,
+    and what to frame: the whole part (``focus`` None) or a ball of ``radius`` about ``focus``."""
 
-    vtk.vtkLogger.SetStderrVerbosity(vtk.vtkLogger.VERBOSITY_OFF)
-    vtk.vtkObject.GlobalWarningDisplayOff()
-    pv.OFF_SCREEN = True
-    return pv
+    direction: np.ndarray
+    up: np.ndarray
+    name: str
+    focus: np.ndarray | None = None
+    radius: float = 0.0
 
 
 def colour_limits(values: np.ndarray, signed: bool) -> tuple[float, float]:
@@ -47,92 +65,226 @@ def colour_limits(values: np.ndarray, signed: bool) -> tuple[float, float]:
     return (low, high) if high > low else (low, low + 1e-12)
 
 
+# ---------------------------------------------------------------- choosing views
+
+
+def fibonacci_directions(count: int) -> np.ndarray:
+    """(count, 3) unit vectors spread evenly over the sphere (the Fibonacci lattice, Gonzalez 2010)."""
+    i = np.arange(count) + 0.5
+    z = 1.0 - 2.0 * i / count
+    phi = np.pi * (1.0 + 5.0**0.5) * i
+    r = np.sqrt(1.0 - z * z)
+    return np.column_stack([r * np.cos(phi), r * np.sin(phi), z])
+
+
+def _face_normals(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Area-weighted face normals (m, 3) (length = twice the area) and face centres (m, 3)."""
+    a, b, c = V[F[:, 0]], V[F[:, 1]], V[F[:, 2]]
+    return np.cross(b - a, c - a), (a + b + c) / 3.0
+
+
+def facing_direction(weighted_normals: np.ndarray) -> np.ndarray:
+    """The direction that sees the most projected area of these (area-weighted) faces."""
+    if len(weighted_normals) > 20000:
+        weighted_normals = weighted_normals[np.linspace(0, len(weighted_normals) - 1, 20000).astype(np.int64)]
+    candidates = fibonacci_directions(CANDIDATE_DIRECTIONS)
+    score = np.maximum(weighted_normals @ candidates.T, 0.0).sum(axis=0)
+    return candidates[int(np.argmax(score))]
+
+
+def _principal_axes(points: np.ndarray) -> np.ndarray:
+    """Rows: unit principal axes of the points, largest spread first."""
+    centred = points - points.mean(axis=0)
+    _, _, vt = np.linalg.svd(centred[:: max(1, len(centred) // 20000)], full_matrices=False)
+    return vt
+
+
+def _tilted(direction: np.ndarray, towards: np.ndarray, degrees: float) -> tuple[np.ndarray, np.ndarray]:
+    """``direction`` turned by ``degrees`` towards ``towards`` (made normal to it), and an up vector:
+    ``towards`` made normal to the result."""
+    t = towards - (towards @ direction) * direction
+    t = t / np.linalg.norm(t)
+    angle = np.radians(degrees)
+    d = np.cos(angle) * direction + np.sin(angle) * t
+    up = t - (t @ d) * d
+    return d / np.linalg.norm(d), up / np.linalg.norm(up)
+
+
+def _tilt_axis(direction: np.ndarray, axes: np.ndarray) -> np.ndarray:
+    """Of the given axes, the one most nearly normal to ``direction`` (the first wins ties), signed so
+    that its largest coordinate is positive."""
+    k = int(np.argmin(np.round(np.abs(axes @ direction), 6)))
+    axis = axes[k]
+    return axis if axis[np.argmax(np.abs(axis))] > 0 else -axis
+
+
+def overview_views(V: np.ndarray, F: np.ndarray) -> list[View]:
+    """Two views of the whole part: from the side that shows the most of it, and from the other side."""
+    normals, _ = _face_normals(V, F)
+    best = facing_direction(normals)
+    axis = _tilt_axis(best, _principal_axes(V))
+    front = _tilted(best, axis, TILT_DEG)
+    back = _tilted(-best, axis, TILT_DEG)
+    return [View(*front, "front"), View(*back, "back")]
+
+
+def seam_views(V: np.ndarray, F: np.ndarray, seam_points: np.ndarray, focus: np.ndarray, radius: float,
+               name: str) -> list[View]:
+    """Two views facing a seam (the direction that sees most of the faces within ``radius`` of it,
+    tilted along the seam): the whole part, and a close-up of the ball of ``radius`` about ``focus``."""
+    from scipy.spatial import cKDTree
+
+    normals, centres = _face_normals(V, F)
+    near = np.unique(np.concatenate(cKDTree(centres).query_ball_point(seam_points, radius)).astype(np.int64))
+    best = facing_direction(normals[near] if len(near) else normals)
+    along = _principal_axes(seam_points)[0] if len(seam_points) > 2 else _principal_axes(V)[0]
+    if abs(along @ best) > 0.9:  # a seam seen end-on (a closed ring seen from its axis): any normal axis
+        along = _tilt_axis(best, _principal_axes(V))
+    along = along if along[np.argmax(np.abs(along))] > 0 else -along
+    d, up = _tilted(best, along, TILT_DEG)
+    return [View(d, up, f"{name}: whole part"), View(d, up, f"{name}: close-up", np.asarray(focus, float), radius)]
+
+
+# ---------------------------------------------------------------- rendering
+
+
+def _pyvista():
+    import pyvista as pv
+    import vtk
+
+    vtk.vtkLogger.SetStderrVerbosity(vtk.vtkLogger.VERBOSITY_OFF)
+    vtk.vtkObject.GlobalWarningDisplayOff()
+    pv.OFF_SCREEN = True
+    return pv
+
+
 def _surface(pv, V: np.ndarray, F: np.ndarray):
     cells = np.hstack([np.full((len(F), 1), 3), F]).astype(np.int64).ravel()
     return pv.PolyData(np.asarray(V, dtype=float), cells)
 
 
-def _seam_facing_direction(V: np.ndarray, seams: list[SeamOverlay]) -> np.ndarray:
-    """A view direction that looks at the seams from outside: from the part's centre out through
-    the seams' centre (falls back to an isometric direction)."""
-    if not seams:
-        return np.array([1.0, 1.0, 1.0]) / np.sqrt(3)
-    centre = V.mean(axis=0)
-    target = np.vstack([s.points for s in seams]).mean(axis=0)
-    direction = target - centre
-    norm = np.linalg.norm(direction)
-    return direction / norm if norm > 1e-9 * (np.ptp(V, axis=0).max() + 1e-300) else np.array([1.0, 1.0, 1.0]) / np.sqrt(3)
-
-
-def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | os.PathLike, *,
-                 quantity: str, unit: str, signed: bool, seams: list[SeamOverlay] | None = None,
-                 title: str = "", size: tuple[int, int] = (1600, 800)) -> Path:
-    """Write a PNG heatmap of a per-vertex field in two views (isometric, and facing the seams),
-    with a colour bar titled with the quantity, its unit and the clipping percentiles."""
-    pv = _pyvista()
-    seams = seams or []
-    values = np.asarray(values, dtype=float)
-    limits = colour_limits(values, signed)
-    surface = _surface(pv, V, F)
-    surface.point_data[quantity] = np.where(np.isfinite(values), values, np.nan)
-    low, high = PERCENTILES
-    clipped = f"{high:g}th pct of abs value" if signed else f"{low:g}th-{high:g}th pct"
-    bar_title = f"{quantity} [{unit}]  (limits: {clipped})"
-    diagonal = float(np.linalg.norm(np.ptp(V, axis=0)))
-    plotter = pv.Plotter(off_screen=True, shape=(1, 2), window_size=size, border=False)
-    directions = [np.array([1.0, -1.0, 0.8]) / np.linalg.norm([1.0, -1.0, 0.8]), _seam_facing_direction(V, seams)]
-    names = ["isometric view", "view facing the seams" if seams else "opposite view"]
-    if not seams:
-        directions[1] = -directions[0] * np.array([1, 1, -1])
-    for column, (direction, name) in enumerate(zip(directions, names)):
-        plotter.subplot(0, column)
-        actor = plotter.add_mesh(surface.copy(), scalars=quantity, cmap="RdBu_r" if signed else "viridis",
-                         clim=limits, nan_color="#cccccc", show_scalar_bar=False, smooth_shading=True,
-                         ambient=0.25, diffuse=0.75, specular=0.1)
-        for seam in seams:
-            _add_seam_tubes(pv, plotter, seam, 0.004 * diagonal)
-        plotter.add_text(name, font_size=10, position="upper_right")
-        centre = V.mean(axis=0)
-        plotter.camera_position = [tuple(centre + 2.5 * diagonal * direction), tuple(centre), _up_vector(direction)]
-        plotter.reset_camera()
-        plotter.camera.zoom(1.15)
-        if column == 0:
-            first_mapper = actor.mapper
-    plotter.subplot(0, 0)
-    plotter.add_scalar_bar(title=bar_title, n_labels=5, fmt="%.3g", vertical=False, position_x=0.15,
-                           position_y=0.04, width=0.7, height=0.07, title_font_size=16, label_font_size=14,
-                           mapper=first_mapper)
-    if title:
-        plotter.add_text(title, font_size=12, position="upper_left")
-    if seams:
-        legend = [(f"seam: {status}", colour) for status, colour in STATUS_COLOURS.items()]
-        plotter.subplot(0, 1)
-        plotter.add_legend(legend, bcolor="white", size=(0.3, 0.15), loc="upper left", face="rectangle")
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    temporary = path.with_name(f".{path.stem}.tmp.png")
-    plotter.screenshot(str(temporary))
-    plotter.close()
-    os.replace(temporary, path)
-    return path
-
-
-def _up_vector(direction: np.ndarray) -> tuple[float, float, float]:
-    up = np.array([0.0, 0.0, 1.0])
-    if abs(float(direction @ up)) > 0.95:
-        up = np.array([0.0, 1.0, 0.0])
-    return tuple(up)
-
-
-def _add_seam_tubes(pv, plotter, seam: SeamOverlay, radius: float) -> None:
-    """Each run of equal status along the seam as one tube of that status's colour."""
+def _add_seam(pv, plotter, seam: SeamOverlay, radius: float) -> None:
+    """Each run of equal status along the seam as one tube of that status's colour; station markers
+    as balls."""
     status = list(seam.status)
     start = 0
     for i in range(1, len(status) + 1):
         if i == len(status) or status[i] != status[start]:
-            stop = min(i + 1, len(status))
-            points = seam.points[start:stop]
+            points = seam.points[start:min(i + 1, len(status))]
             if len(points) >= 2:
-                tube = pv.lines_from_points(points).tube(radius=radius, n_sides=12)
-                plotter.add_mesh(tube, color=STATUS_COLOURS.get(status[start], "#000000"))
+                tube = pv.lines_from_points(points).tube(radius=radius, n_sides=16)
+                plotter.add_mesh(tube, color=STATUS_COLOURS.get(status[start], "#000000"), ambient=0.3)
             start = i
+    if seam.markers is not None:
+        for point, state in zip(np.atleast_2d(seam.markers), seam.marker_status):
+            ball = pv.Sphere(radius=1.7 * radius, center=point, theta_resolution=16, phi_resolution=12)
+            plotter.add_mesh(ball, color=STATUS_COLOURS.get(state, "#000000"), ambient=0.3)
+
+
+def _camera(view: View, V: np.ndarray, aspect: float) -> tuple[list, float]:
+    """PyVista camera position and parallel scale that frame the view's target (the whole part, or the
+    vertices within the close-up ball) in a panel of width / height ``aspect``, with a small margin."""
+    target = V if view.focus is None else V[np.linalg.norm(V - view.focus, axis=1) <= view.radius]
+    if len(target) == 0:
+        target = np.asarray(view.focus, dtype=float)[None, :]
+    right = np.cross(-view.direction, view.up)
+    x, y = target @ right, target @ view.up
+    centre = target.mean(axis=0)
+    centre = centre + (0.5 * (x.max() + x.min()) - centre @ right) * right + (0.5 * (y.max() + y.min()) - centre @ view.up) * view.up
+    half = max(0.5 * float(np.ptp(y)), 0.5 * float(np.ptp(x)) / aspect, 1e-9)
+    depth = float(np.linalg.norm(np.ptp(V, axis=0))) + 1e-9
+    eye = centre + 2.0 * depth * view.direction
+    return [tuple(eye), tuple(centre), tuple(view.up)], 1.06 * half
+
+
+def render_views(V: np.ndarray, F: np.ndarray, values: np.ndarray, views: list[View], *, cmap: str,
+                 limits: tuple[float, float], seams: list[SeamOverlay], pixels: tuple[int, int]) -> list[np.ndarray]:
+    """One RGB image of ``pixels`` (width, height) per view of the part coloured by ``values``
+    (clipped to ``limits``), seams on top."""
+    pv = _pyvista()
+    V = np.asarray(V, dtype=float)
+    surface = _surface(pv, V, F)
+    surface.point_data["field"] = np.where(np.isfinite(values), values, np.nan)
+    plotter = pv.Plotter(off_screen=True, window_size=list(pixels), border=False)
+    plotter.set_background("white")
+    plotter.add_mesh(surface, scalars="field", cmap=cmap, clim=limits, nan_color="#c8c8c8", show_scalar_bar=False,
+                     smooth_shading=True, ambient=0.35, diffuse=0.65, specular=0.0)
+    diagonal = float(np.linalg.norm(np.ptp(V, axis=0)))
+    for seam in seams:
+        _add_seam(pv, plotter, seam, 0.003 * diagonal)
+    plotter.enable_parallel_projection()
+    images = []
+    for view in views:
+        position, half = _camera(view, V, pixels[0] / pixels[1])
+        plotter.camera_position = position
+        plotter.camera.parallel_scale = half
+        plotter.camera.clipping_range = (1e-3 * diagonal, 5.0 * diagonal)
+        plotter.render()
+        images.append(plotter.screenshot(return_img=True))
+    plotter.close()
+    return images
+
+
+def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | os.PathLike, *,
+                 quantity: str, unit: str, signed: bool, seams: list[SeamOverlay] | None = None,
+                 title: str = "", views: list[View] | None = None, limits: tuple[float, float] | None = None,
+                 size: tuple[int, int] = (1600, 800)) -> Path:
+    """Write a PNG of a per-vertex field: the views (default: overview_views) side by side, one colour
+    bar titled with the quantity and its unit, the colour limits stated under it, and a legend of
+    the seam statuses when seams are drawn. ``size`` is the picture's size in pixels."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from matplotlib.patches import Patch
+
+    values = np.asarray(values, dtype=float)
+    seams = seams or []
+    views = views or overview_views(np.asarray(V, float), np.asarray(F))
+    limits = limits or colour_limits(values, signed)
+    cmap = "RdBu_r" if signed else "viridis"
+    width, height = size
+    pad, gap, head, foot = 16, 20, (86 if title else 40), 150
+    panel = ((width - 2 * pad - gap * (len(views) - 1)) // len(views), height - head - foot)
+    images = render_views(V, F, values, views, cmap=cmap, limits=limits, seams=seams, pixels=panel)
+
+    fig = plt.figure(figsize=(width / DPI, height / DPI), dpi=DPI)
+    for k, (image, view) in enumerate(zip(images, views)):
+        x0 = pad + k * (panel[0] + gap)
+        fig.figimage(image, xo=x0, yo=foot, origin="upper")
+        fig.text((x0 + 0.5 * panel[0]) / width, (foot + panel[1] + 8) / height, view.name, fontsize=13,
+                 ha="center", va="bottom")
+    if title:
+        fig.text(pad / width, 1.0 - 12 / height, title, fontsize=15, ha="left", va="top")
+    bar_right = width - pad - (300 if seams else 0)
+    bar_ax = fig.add_axes([(pad + 30) / width, 82 / height, (bar_right - pad - 60) / width, 30 / height])
+    finite = values[np.isfinite(values)]
+    mappable = plt.cm.ScalarMappable(norm=matplotlib.colors.Normalize(*limits), cmap=cmap)
+    bar = fig.colorbar(mappable, cax=bar_ax, orientation="horizontal", extend=_extend(finite, limits))
+    bar.ax.tick_params(labelsize=12)
+    bar.ax.xaxis.set_major_formatter(matplotlib.ticker.FormatStrFormatter("%.3g"))
+    bar.set_label(f"{quantity} [{unit}]", fontsize=13)
+    low, high = PERCENTILES
+    rule = (f"|value| {high:g}th percentile" if signed else f"{low:g}th to {high:g}th percentile")
+    stated = f"colour limits {limits[0]:.3g} .. {limits[1]:.3g} {unit} ({rule}); "
+    stated += f"field range {finite.min():.3g} .. {finite.max():.3g}" if finite.size else "no finite values"
+    fig.text(pad / width, 8 / height, stated, fontsize=11, ha="left", va="bottom")
+    if seams:
+        handles = [Patch(color=c, label=f"seam {s}") for s, c in STATUS_COLOURS.items()]
+        fig.legend(handles=handles, loc="lower right", bbox_to_anchor=(1.0 - pad / width, 30 / height),
+                   fontsize=12, frameon=False, title="result per station", title_fontsize=12)
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    temporary = path.with_name(f".{path.stem}.tmp.png")
+    fig.savefig(temporary, dpi=DPI, facecolor="white")
+    plt.close(fig)
+    os.replace(temporary, path)
+    return path
+
+
+def _extend(finite: np.ndarray, limits: tuple[float, float]) -> str:
+    """matplotlib's colour-bar ``extend``: which ends of the bar have values beyond them."""
+    if finite.size == 0:
+        return "neither"
+    below, above = finite.min() < limits[0], finite.max() > limits[1]
+    return {(True, True): "both", (True, False): "min", (False, True): "max"}.get((below, above), "neither")

@@ -79,3 +79,40 @@ def sphere(R: float, subdivisions: int, jitter: float = 0.0, seed: int = 1) -> A
     normal = V / np.linalg.norm(V, axis=1, keepdims=True)
     k = np.full(len(V), 1.0 / R)
     return Analytic(R * normal, np.array(mesh.faces, dtype=np.int64), normal, k, k)
+
+
+def extruded_profile(curvature, length: float, width: float, n_s: int, n_w: int, oversample: int = 40):
+    """A plane curve of prescribed curvature ``curvature(s)`` over arc length [0, length], extruded along z.
+
+    The curve is integrated from its curvature (theta' = kappa, x' = cos theta, y' = sin theta, the
+    natural equation of a plane curve). Faces are wound so that the normal is T x z: a positive
+    curvature bends away from the normal (outward, as on a convex part). Returns V, F and the arc
+    length s of each vertex.
+    """
+    fine = np.linspace(0.0, length, (n_s - 1) * oversample + 1)
+    turn = _cumulative(curvature(fine), fine)
+    x, y = _cumulative(np.cos(turn), fine), _cumulative(np.sin(turn), fine)
+    s = fine[::oversample]
+    z = np.linspace(0.0, width, n_w)
+    V = np.stack(
+        [np.repeat(x[::oversample], n_w), np.repeat(y[::oversample], n_w), np.tile(z, n_s)], axis=1
+    )
+    return V, grid_faces(n_s, n_w, False, False), np.repeat(s, n_w)
+
+
+def _cumulative(f: np.ndarray, s: np.ndarray) -> np.ndarray:
+    """Trapezoidal running integral of f over s, starting at 0."""
+    return np.concatenate([[0.0], np.cumsum(0.5 * (f[1:] + f[:-1]) * np.diff(s))])
+
+
+def smooth_step(t: np.ndarray) -> np.ndarray:
+    """Cubic Hermite smooth step 3t^2 - 2t^3 on [0, 1], clamped: C^1 at both ends."""
+    t = np.clip(t, 0.0, 1.0)
+    return t * t * (3.0 - 2.0 * t)
+
+
+def random_rotation(seed: int) -> np.ndarray:
+    """A random proper rotation matrix (QR of a Gaussian matrix, sign-fixed)."""
+    q, r = np.linalg.qr(np.random.default_rng(seed).normal(size=(3, 3)))
+    q = q * np.sign(np.diag(r))
+    return q if np.linalg.det(q) > 0 else -q

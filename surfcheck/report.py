@@ -1,0 +1,216 @@
+"""The review folder of a grading: DIR/index.html (page.py) with its pictures beside it, and
+DIR/result.json, the document `grade --json` prints (results.grade_document).
+
+Pictures: per seam, the curvature-jump field facing the seam with the seam coloured by its
+per-station result (whole part and a close-up at the governing station), the curvature profile across
+it at its worst stations and G0..G3 along it (plots.py); for the whole part, the jump heatmaps.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+import sys
+from dataclasses import replace
+from datetime import datetime, timezone
+from pathlib import Path
+
+import numpy as np
+
+from surfcheck import __version__
+from surfcheck.continuity import ORDERS, SeamGrade
+from surfcheck.errors import InputError
+from surfcheck.fields import vertex_fields
+from surfcheck.io import LoadResult, write_atomic
+from surfcheck.page import Picture, review_page
+from surfcheck.part import Part
+from surfcheck.results import grade_document
+from surfcheck.seams import Curve, SeamIndex
+from surfcheck.sections import cut_sections
+from surfcheck.summary import part_summary
+from surfcheck.tolerances import ToleranceProfile
+
+PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
+SEAM_QUANTITY = "jump"  # the field under each seam's picture
+CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam
+LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib")
+
+
+def station_statuses(grade: SeamGrade, upto: int) -> tuple[str, ...]:
+    """Per station, the decision over G0..G``upto``: fail if one fails, ok if all are ok, else not
+    resolved."""
+    out = []
+    for station in grade.stations:
+        statuses = [station.orders[k].status for k in range(upto + 1)]
+        out.append("fail" if "fail" in statuses else "ok" if all(s == "ok" for s in statuses) else "not resolved")
+    return tuple(out)
+
+
+def shown_order(grade: SeamGrade, required: int | None) -> int:
+    """The order whose per-station result colours a seam: the requirement, else the first order that
+    does not hold (G3 when all hold)."""
+    return required if required is not None else min(max(grade.achieved + 1, 0), 3)
+
+
+def seam_overlay(curve: Curve, grade: SeamGrade, upto: int):
+    """The seam as drawn: each polyline point takes the result of its nearest station along the seam."""
+    from surfcheck.render import SeamOverlay
+
+    statuses = station_statuses(grade, upto)
+    pts = np.vstack([curve.points, curve.points[:1]]) if curve.closed else curve.points
+    arc = np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(pts, axis=0), axis=1))])[: len(curve.points)]
+    s = np.array([st.s for st in grade.stations])
+    nearest = np.argmin(np.abs(arc[:, None] - s[None, :]), axis=1)
+    points = np.vstack([curve.points, curve.points[:1]]) if curve.closed else curve.points
+    status = tuple(statuses[k] for k in nearest) + ((statuses[nearest[0]],) if curve.closed else ())
+    markers = np.array([st.position for st in grade.stations])
+    return SeamOverlay(points, status, grade.id, markers, statuses)
+
+
+def check_folder(path: str | Path) -> Path:
+    """The report folder as a Path; InputError when it names an existing file."""
+    path = Path(path)
+    if path.exists() and not path.is_dir():
+        raise InputError(f"{path}: exists and is not a folder; give another report folder")
+    return path
+
+
+def _file_name(text: str) -> str:
+    return re.sub(r"[^A-Za-z0-9._-]+", "_", text)
+
+
+def _curves(part: Part, grades: list[SeamGrade]) -> list[Curve]:
+    """The seam curve of each grade, with its sides in the grade's order."""
+    index = {c.id: c for c in SeamIndex(part).seams}
+    missing = [g.id for g in grades if g.id not in index]
+    if missing:
+        raise InputError(f"{part.source or 'part'}: no seam {', '.join(missing)} on this part")
+    return [replace(index[g.id], groups=g.groups) for g in grades]
+
+
+def _library_versions() -> str:
+    from importlib.metadata import PackageNotFoundError, version
+
+    found = []
+    for name in LIBRARIES:
+        try:
+            found.append(f"{name} {version(name)}")
+        except PackageNotFoundError:
+            pass
+    return ", ".join(found)
+
+
+class _Steps:
+    """A rich progress bar on a terminal's stderr (transient); nothing when quiet or not a terminal."""
+
+    def __init__(self, total: int, quiet: bool) -> None:
+        self.progress = None
+        if not quiet and sys.stderr.isatty():
+            from rich.console import Console
+            from rich.progress import Progress
+
+            self.progress = Progress(console=Console(stderr=True), transient=True)
+            self.task = self.progress.add_task("writing the review", total=total)
+
+    def __enter__(self) -> "_Steps":
+        if self.progress:
+            self.progress.start()
+        return self
+
+    def advance(self, what: str) -> None:
+        if self.progress:
+            self.progress.update(self.task, advance=1, description=what)
+
+    def __exit__(self, *exc) -> None:
+        if self.progress:
+            self.progress.stop()
+
+
+def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile, required: int | None,
+                 out_dir: str | Path, *, parameters: dict | None = None, summary: dict | None = None,
+                 quiet: bool = False) -> Path:
+    """Write the review of graded seams to ``out_dir``: index.html, result.json and the pictures.
+
+    ``parameters`` are the grading's (as grade_document takes them; its ``stations`` and ``spacing``
+    place the plotted stations as they placed the graded ones); ``summary`` is summary.part_summary
+    of the loaded part (made from the part alone when not given). Returns the page's path.
+    """
+    from surfcheck.differential import principal_curvatures
+    from surfcheck.plots import plot_along_seam, plot_profiles
+    from surfcheck.render import colour_limits, overview_views, render_field, seam_views
+
+    out = check_folder(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    parameters = dict(parameters or {})
+    profile = profile.in_units(part.units)
+    document = grade_document(part, grades, profile, required, parameters)
+    summary = summary or part_summary(LoadResult(part))
+    curves = _curves(part, grades)
+    V, F = part.vertices, part.faces
+    name = Path(part.source).name or "part"
+    part_pictures: list[Picture] = []
+    seam_pictures: dict[str, list[Picture]] = {}
+    with _Steps(2 + len(PART_QUANTITIES) + 3 * len(grades), quiet) as steps:
+        fields = vertex_fields(part, dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY]))
+        curvature = principal_curvatures(V, F)
+        limits = {q: colour_limits(f.values, f.signed) for q, f in fields.items()}
+        steps.advance("fields")
+        overlays = [seam_overlay(c, g, shown_order(g, required)) for c, g in zip(curves, grades)]
+        shown = sorted({ORDERS[shown_order(g, required)] for g in grades})
+        for quantity in PART_QUANTITIES:
+            f = fields[quantity]
+            file = f"part-{_file_name(quantity)}.png"
+            render_field(V, F, f.values, out / file, quantity=quantity, unit=f.unit, signed=f.signed,
+                         seams=overlays, views=overview_views(V, F), limits=limits[quantity],
+                         title=f"{f.description}: {name}")
+            part_pictures.append(Picture(file, f"{f.description} [{f.unit}] over the whole part, from the side"
+                                         " that shows most of it and from the other side; seams coloured by"
+                                         f" their per-station result up to {'/'.join(shown)}.",
+                                         f"{quantity} heatmap of the whole part"))
+            steps.advance(quantity)
+        for curve, grade, overlay in zip(curves, grades, overlays):
+            pictures = seam_pictures.setdefault(grade.id, [])
+            sections = cut_sections(part, curve, parameters.get("stations"), parameters.get("spacing"))
+            edge = sections[0].edge if sections else float(np.median(part.edge_lengths))
+            order = shown_order(grade, required)
+            focus = grade.orders[order].worst_position
+            f = fields[SEAM_QUANTITY]
+            stem = _file_name(grade.id)
+            render_field(V, F, f.values, out / f"{stem}-map.png", quantity=SEAM_QUANTITY, unit=f.unit,
+                         signed=f.signed, seams=[overlay], limits=limits[SEAM_QUANTITY],
+                         views=seam_views(V, F, curve.points, focus, CLOSE_UP_EDGES * edge, grade.id),
+                         title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}) over the {f.description}")
+            pictures.append(Picture(f"{stem}-map.png", f"{f.description} [{f.unit}] around {grade.id}, facing it;"
+                                    f" close-up at the governing station of {ORDERS[order]}. Tube and"
+                                    f" balls (stations): result up to {ORDERS[order]} per station.",
+                                    f"{grade.id} over the {SEAM_QUANTITY} heatmap"))
+            steps.advance(f"{grade.id} picture")
+            plot_along_seam(grade, out / f"{stem}-along.png", coverage=profile.coverage)
+            pictures.append(Picture(f"{stem}-along.png", f"G0..G3 at each station along {grade.id} against the"
+                                    " tolerance (shaded: within tolerance).", f"{grade.id} G0 to G3 along the seam"))
+            steps.advance(f"{grade.id} along the seam")
+            plot_profiles(grade, sections, out / f"{stem}-profiles.png", coverage=profile.coverage,
+                          curvature=curvature)
+            pictures.append(Picture(f"{stem}-profiles.png", f"The section and the curvature across {grade.id} at"
+                                    " its worst stations, each side's one-sided fit over its data.",
+                                    f"{grade.id} curvature profiles"))
+            steps.advance(f"{grade.id} profiles")
+        write_atomic(out / "result.json", (json.dumps(document, indent=2, allow_nan=False) + "\n").encode())
+        context = {"surfcheck": __version__, "libraries": _library_versions(),
+                   "written": datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")}
+        notes = _notes(document)
+        page = review_page(document, summary, part_pictures, seam_pictures, context, notes)
+        write_atomic(out / "index.html", page.encode("utf-8"))
+        steps.advance("page")
+    return out / "index.html"
+
+
+def _notes(document: dict) -> list[str]:
+    """Cautions that this result calls for, beyond the standing one."""
+    notes = []
+    unresolved = sorted({f"{s['id']} {k}" for s in document["seams"] for k, o in s["orders"].items()
+                         if o["status"] == "not resolved"})
+    if unresolved:
+        notes.append("Not resolved (the data cannot decide within the tolerance; measure finer or with less"
+                     f" noise before concluding): {', '.join(unresolved)}.")
+    return notes

@@ -30,6 +30,8 @@ from surfcheck.steps import KINDS, smooth_step
 
 MAX_ORDER = 3  # the extensions carry tangent, curvature and curvature rate
 FINE_T = 257  # samples per column for the cross arc length
+LEAN_BACK = 0.01  # a section may reach this fraction of the gap behind a side's boundary (from memory)
+MAX_TURN_PER_EDGE = 0.5  # radians a section may turn over one edge length and still be shown (from memory)
 
 
 @dataclass(frozen=True)
@@ -109,7 +111,9 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     else:
         span_a = span_b = np.full(columns, float(span))
     surface = BlendSurface(side_a, side_b, span_a, span_b, step, order)
-    t_rows = _rows_of_equal_arc_length(surface, spacing)
+    fine_t = np.linspace(0.0, 1.0, FINE_T)
+    columns_fine = surface.derivative(fine_t[:, None])  # (FINE_T, columns, 3)
+    t_rows = _rows_of_equal_arc_length(columns_fine, fine_t, spacing)
     interior = surface.derivative(t_rows[1:-1]).reshape(-1, 3)
     V, F, row_a, row_b, vertex_u = _triangulate(chain_a, chain_b, interior, u, s_a, mapping.inverse(s_b))
     flip = boundary_direction(part_a, chain_a) > 0  # the patch must run along chain A against part A
@@ -119,7 +123,8 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     if boundary_direction(part_b, chain_b) == along_b:
         raise InputError(f"the triangles beside {chain_b.id} wind opposite to those beside {chain_a.id} "
                          "across the gap; reorient one part so that their normals agree")
-    problems = _find_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface)
+    problems = _column_problems(columns_fine, surface, chain_a, part_a.units, spacing)
+    problems += _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface)
     return BlendResult(V, F, row_a, row_b, chain_a, chain_b, order, step, spacing, surface, u, mapping,
                        tuple(problems))
 
@@ -176,10 +181,8 @@ def _edge_lengths(chain: Curve) -> np.ndarray:
     return np.linalg.norm(np.diff(pts, axis=0), axis=1)
 
 
-def _rows_of_equal_arc_length(surface: BlendSurface, spacing: float) -> np.ndarray:
+def _rows_of_equal_arc_length(samples: np.ndarray, t: np.ndarray, spacing: float) -> np.ndarray:
     """(rows, columns) values of t at equal cross arc length along each column, first 0 and last 1."""
-    t = np.linspace(0.0, 1.0, FINE_T)
-    samples = surface.derivative(t[:, None])
     steps = np.linalg.norm(np.diff(samples, axis=0), axis=2)
     arc = np.vstack([np.zeros(steps.shape[1]), np.cumsum(steps, axis=0)])
     rows = max(5, int(np.ceil(arc[-1].mean() / spacing)) + 1)
@@ -248,24 +251,64 @@ def _triangulate(chain_a: Curve, chain_b: Curve, interior: np.ndarray, u: np.nda
     return V, F, row_a, row_b, vertex_u
 
 
-def _find_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface) -> list[str]:
-    """One line for each reason the patch cannot be trusted: fold-over, or running into itself or a part."""
+def _where(surface: BlendSurface, chain_a: Curve, u: float, units: str) -> str:
+    """Where a problem is, and the gap and turn the patch makes there."""
+    columns = surface.span_a.shape[0]
+    c = int(np.clip(np.round(u * (columns - (not chain_a.closed))), 0, columns - 1)) % columns
+    gap = np.linalg.norm(surface.side_b.p[c] - surface.side_a.p[c])
+    turn = np.degrees(np.arccos(np.clip(-np.dot(surface.side_a.D[c], surface.side_b.D[c]), -1.0, 1.0)))
+    return (f"{u * chain_a.length:.4g} {units} along {chain_a.id}, where the {gap:.4g} {units} gap "
+            f"must turn {turn:.0f} degrees")
+
+
+def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve, units: str,
+                     spacing: float) -> list[str]:
+    """Problems seen on the analytic cross sections: a section that turns back on itself (fold), one
+    that bends tighter than the mesh can show (a gap too short for its turn), or one that reaches back
+    behind either side's boundary (a span too long for the gap)."""
+    problems = []
+    columns = samples.shape[1]
+    u = np.arange(columns) / (columns if chain_a.closed else columns - 1)
+    seg = np.diff(samples, axis=0)
+    folds = np.sum(seg[1:] * seg[:-1], axis=2) <= 0.0
+    if folds.any():
+        c = int(np.flatnonzero(folds.any(axis=0))[0])
+        problems.append(f"the patch folds over near {_where(surface, chain_a, u[c], units)}: the gap is too "
+                        "short for that turn or the span too long (widen the gap or set a shorter --span)")
+    else:
+        lengths = np.linalg.norm(seg, axis=2)
+        cos_turn = np.sum(seg[1:] * seg[:-1], axis=2) / (lengths[1:] * lengths[:-1])
+        bend = np.arccos(np.clip(cos_turn, -1.0, 1.0)) / (0.5 * (lengths[1:] + lengths[:-1]))
+        tight = bend.max(axis=0) * spacing > MAX_TURN_PER_EDGE
+        if tight.any():
+            c = int(np.argmax(bend.max(axis=0)))
+            problems.append(f"the patch bends too tightly near {_where(surface, chain_a, u[c], units)}: radius "
+                            f"{1.0 / bend[:, c].max():.3g} {units} under {spacing:.3g} {units} triangles; the gap "
+                            "is too short for the turn or the span too long (widen the gap, refine the mesh or "
+                            "set a shorter --span)")
+    gap = np.linalg.norm(surface.side_b.p - surface.side_a.p, axis=1)
+    behind_a = np.einsum("tcj,cj->tc", samples - surface.side_a.p, surface.side_a.D).min(axis=0)
+    behind_b = np.einsum("tcj,cj->tc", samples - surface.side_b.p, surface.side_b.D).min(axis=0)
+    behind = np.minimum(behind_a, behind_b) < -LEAN_BACK * gap
+    if behind.any():
+        c = int(np.flatnonzero(behind)[0])
+        problems.append(f"the patch leans back behind a side's boundary near {_where(surface, chain_a, u[c], units)}"
+                        ": the span is too long for the gap (set a shorter --span)")
+    return problems
+
+
+def _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface) -> list[str]:
+    """Problems seen on the triangles: fold-over between neighbours, or running into itself or a part."""
     problems = []
     units = part_a.units
-    columns = surface.span_a.shape[0]
 
     def where(faces: np.ndarray) -> str:
-        u = float(np.median(vertex_u[F[faces]]))
-        c = int(np.clip(np.round(u * (columns - (not chain_a.closed))), 0, columns - 1)) % columns
-        gap = np.linalg.norm(surface.side_b.p[c] - surface.side_a.p[c])
-        turn = np.degrees(np.arccos(np.clip(-np.dot(surface.side_a.D[c], surface.side_b.D[c]), -1.0, 1.0)))
-        return (f"{u * chain_a.length:.4g} {units} along {chain_a.id}, where the {gap:.4g} {units} gap "
-                f"must turn {turn:.0f} degrees")
+        return _where(surface, chain_a, float(np.median(vertex_u[F[faces]])), units)
 
     folded = folded_faces(V, F)
     if len(folded):
-        problems.append(f"the patch folds over near {where(folded)}: the gap is too short for that turn "
-                        "(widen the gap or set a shorter --span)")
+        problems.append(f"the patch folds over near {where(folded)}: the gap is too short for that turn or "
+                        "the span too long (widen the gap or set a shorter --span)")
     w = weld(part_a, chain_a, V, F, row_a, row_b, part_b, chain_b)
     hits = crossing_pairs(w.vertices, w.faces, w.patch_faces)
     if len(hits):

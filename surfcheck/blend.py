@@ -83,9 +83,15 @@ class BlendResult:
     problems: tuple[str, ...]
 
 
-def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, order: int, step: str = "exp",
+def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, order: int, step: str = "hermite",
                 span: float | None = None, resolution: float | None = None) -> BlendResult:
     """A patch joining chain A of part A to chain B of part B with G^order contact on both.
+
+    ``step`` is the smooth step's kind, of order ``order`` (steps.KINDS). The default is the hermite
+    step, C^order exactly: its curvature changes polynomially away from the seams, which one-sided
+    polynomial fits on a mesh can resolve. The exp step is C-infinity, but its derivatives stay
+    exponentially flat near the seams and then rise steeply, so its contact is exact yet rarely
+    resolvable on a practical mesh (docs/blend.md).
 
     ``span`` fixes both extensions' reach (part units); by default it is chosen per column from the
     gap and the turn (see default_spans). ``resolution`` is the target edge length, by default the

@@ -150,3 +150,12 @@ CASES = {
     "plane and parabolic sheet": (plane_a(), parabola_b(8.0, 1.0, 0.06, 3.0, 8.0), 8.0, False),
     "cylinders of radius 5 and 7": (Revolved(5.0, 0.0), Revolved(7.0, 0.0), 10.0, True),
 }
+
+# Blends wide enough for the mesh grader: each leg some 45 chain edges, so that one-sided fits over a
+# few edge lengths see the patch's curvature change as a polynomial ramp.
+GRADED_CASES = {
+    "planes at 40 degrees": (plane_a(), corner_b(40, 15.0, 30.0), 30.0, False),
+    "plane and cylinder": (plane_a(), corner_b(30, 15.0, 30.0, radius=36.0), 30.0, False),
+    "plane and parabolic sheet": (plane_a(), parabola_b(24.0, 3.0, 0.02, 9.0, 24.0), 24.0, False),
+    "cylinders of radius 5 and 7": (Revolved(5.0, 0.0), Revolved(7.0, 0.0), 30.0, True),
+}

@@ -248,7 +248,7 @@ def test_a_span_too_long_for_the_gap_is_reported_with_its_reason():
     a, b = pair(plane_a(), offset_b(2.0, 5.0), 5.0)
     assert build_blend(a.part, a.chain, b.part, b.chain, 2).problems == ()
     a, b = pair(plane_a(), offset_b(4.0, 2.0), 2.0)
-    blend = build_blend(a.part, a.chain, b.part, b.chain, 2, span=12.0)
+    blend = build_blend(a.part, a.chain, b.part, b.chain, 2, step="exp", span=12.0)
     t = np.linspace(0.0, 1.0, 201)
     assert blend.surface.derivative(t[:, None])[..., 1].min() < -0.1  # y < 0: behind A's boundary
     assert any("leans back" in p and "span is too long for the gap" in p for p in blend.problems)

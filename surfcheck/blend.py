@@ -129,8 +129,8 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     if boundary_direction(part_b, chain_b) == along_b:
         raise InputError(f"the triangles beside {chain_b.id} wind opposite to those beside {chain_a.id} "
                          "across the gap; reorient one part so that their normals agree")
-    problems = _column_problems(columns_fine, surface, chain_a, part_a.units, spacing)
-    problems += _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface)
+    problems = _column_problems(columns_fine, surface, chain_a, u, part_a.units, spacing)
+    problems += _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface, u)
     return BlendResult(V, F, row_a, row_b, chain_a, chain_b, order, step, spacing, surface, u, mapping,
                        tuple(problems))
 
@@ -173,7 +173,7 @@ def _check_request(part_a, chain_a, part_b, chain_b, order, step, span, resoluti
             raise InputError(f"{chain.id} is a {chain.kind}, not a boundary loop or chain; blends join boundaries")
         if len(chain.vertices) < (3 if chain.closed else 2):
             raise InputError(f"chain {chain.id} has too few vertices to bridge")
-    same_part = part_a is part_b
+    same_part = part_a is part_b or bool(part_a.source and part_a.source == part_b.source)
     if same_part and (chain_a.id == chain_b.id or np.intersect1d(chain_a.vertices, chain_b.vertices).size):
         raise InputError(f"the two chains ({chain_a.id}, {chain_b.id}) are the same or share vertices; "
                          "pick two different boundary chains")
@@ -257,30 +257,31 @@ def _triangulate(chain_a: Curve, chain_b: Curve, interior: np.ndarray, u: np.nda
     return V, F, row_a, row_b, vertex_u
 
 
-def _where(surface: BlendSurface, chain_a: Curve, u: float, units: str) -> str:
-    """Where a problem is, and the gap and turn the patch makes there."""
-    columns = surface.span_a.shape[0]
-    c = int(np.clip(np.round(u * (columns - (not chain_a.closed))), 0, columns - 1)) % columns
+def _where(surface: BlendSurface, chain_a: Curve, u: np.ndarray, at: float, units: str) -> str:
+    """Where a problem is (the column nearest parameter ``at``), and the gap and turn there."""
+    c = int(np.argmin(np.abs(u - at)))
     gap = np.linalg.norm(surface.side_b.p[c] - surface.side_a.p[c])
     turn = np.degrees(np.arccos(np.clip(-np.dot(surface.side_a.D[c], surface.side_b.D[c]), -1.0, 1.0)))
-    return (f"{u * chain_a.length:.4g} {units} along {chain_a.id}, where the {gap:.4g} {units} gap "
+    return (f"{at * chain_a.length:.4g} {units} along {chain_a.id}, where the {gap:.4g} {units} gap "
             f"must turn {turn:.0f} degrees")
 
 
-def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve, units: str,
+def _folds_over(where: str) -> str:
+    return (f"the patch folds over near {where}: the gap is too short for that turn or the span too long "
+            "(widen the gap or set a shorter --span)")
+
+
+def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve, u: np.ndarray, units: str,
                      spacing: float) -> list[str]:
     """Problems seen on the analytic cross sections: a section that turns back on itself (fold), one
     that bends tighter than the mesh can show (a gap too short for its turn), or one that reaches back
     behind either side's boundary (a span too long for the gap)."""
     problems = []
-    columns = samples.shape[1]
-    u = np.arange(columns) / (columns if chain_a.closed else columns - 1)
     seg = np.diff(samples, axis=0)
     folds = np.sum(seg[1:] * seg[:-1], axis=2) <= 0.0
     if folds.any():
         c = int(np.flatnonzero(folds.any(axis=0))[0])
-        problems.append(f"the patch folds over near {_where(surface, chain_a, u[c], units)}: the gap is too "
-                        "short for that turn or the span too long (widen the gap or set a shorter --span)")
+        problems.append(_folds_over(_where(surface, chain_a, u, u[c], units)))
     else:
         lengths = np.linalg.norm(seg, axis=2)
         cos_turn = np.sum(seg[1:] * seg[:-1], axis=2) / (lengths[1:] * lengths[:-1])
@@ -288,7 +289,7 @@ def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve,
         tight = bend.max(axis=0) * spacing > MAX_TURN_PER_EDGE
         if tight.any():
             c = int(np.argmax(bend.max(axis=0)))
-            problems.append(f"the patch bends too tightly near {_where(surface, chain_a, u[c], units)}: radius "
+            problems.append(f"the patch bends too tightly near {_where(surface, chain_a, u, u[c], units)}: radius "
                             f"{1.0 / bend[:, c].max():.3g} {units} under {spacing:.3g} {units} triangles; the gap "
                             "is too short for the turn or the span too long (widen the gap, refine the mesh or "
                             "set a shorter --span)")
@@ -298,23 +299,22 @@ def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve,
     behind = np.minimum(behind_a, behind_b) < -LEAN_BACK * gap
     if behind.any():
         c = int(np.flatnonzero(behind)[0])
-        problems.append(f"the patch leans back behind a side's boundary near {_where(surface, chain_a, u[c], units)}"
+        problems.append(f"the patch leans back behind a side's boundary near {_where(surface, chain_a, u, u[c], units)}"
                         ": the span is too long for the gap (set a shorter --span)")
     return problems
 
 
-def _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface) -> list[str]:
+def _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface, u) -> list[str]:
     """Problems seen on the triangles: fold-over between neighbours, or running into itself or a part."""
     problems = []
     units = part_a.units
 
     def where(faces: np.ndarray) -> str:
-        return _where(surface, chain_a, float(np.median(vertex_u[F[faces]])), units)
+        return _where(surface, chain_a, u, float(np.median(vertex_u[F[faces]])), units)
 
     folded = folded_faces(V, F)
     if len(folded):
-        problems.append(f"the patch folds over near {where(folded)}: the gap is too short for that turn or "
-                        "the span too long (widen the gap or set a shorter --span)")
+        problems.append(_folds_over(where(folded)))
     w = weld(part_a, chain_a, V, F, row_a, row_b, part_b, chain_b)
     hits = crossing_pairs(w.vertices, w.faces, w.patch_faces)
     if len(hits):

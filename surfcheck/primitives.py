@@ -26,7 +26,7 @@ from scipy.spatial import cKDTree
 from surfcheck.errors import InputError
 
 KINDS = ("plane", "cylinder", "sphere", "cone")
-_MAX_REFINE_POINTS = 3000  # refinement runs on a fixed random subset of large point sets
+_MAX_REFINE_POINTS = 1500  # refinement runs on a fixed random subset of large point sets
 
 
 @dataclass(frozen=True, eq=False)
@@ -243,7 +243,7 @@ def fit_cone(points: np.ndarray, normals: np.ndarray | None = None) -> Primitive
         rr = np.linalg.norm(s - np.outer(hh, a), axis=1)
         return rr * np.cos(alpha) - hh * np.sin(alpha)
 
-    res = least_squares(residual, np.array([0, 0, 0, 0, 0, alpha0]), method="lm")
+    res = least_squares(residual, np.array([0, 0, 0, 0, 0, alpha0]), method="lm", max_nfev=150)
     a, c, alpha = unpack(res.x)
     return _finish("cone", P, point=c, axis=a, half_angle=float(alpha))
 
@@ -268,11 +268,13 @@ def fit_simplest(
     normals: np.ndarray | None,
     tolerance: float,
     kinds: tuple[str, ...] = KINDS,
+    good_enough: float | None = None,
 ) -> Primitive:
     """The simplest primitive (in the order of ``kinds``) whose rms is within ``tolerance`` of the best.
 
     Simpler kinds win ties so that a plane is not reported as a huge cylinder or a cone as a cylinder
-    unless the data say so by more than ``tolerance`` (an rms distance in part units).
+    unless the data say so by more than ``tolerance`` (an rms distance in part units). A kind whose rms
+    is already ``good_enough`` is returned at once without trying the more complex ones.
     """
     fits = []
     for kind in kinds:
@@ -280,8 +282,11 @@ def fit_simplest(
             fit = fit_primitive(kind, points, normals)
         except (np.linalg.LinAlgError, ValueError, InputError):
             continue
-        if np.isfinite(fit.rms):
-            fits.append(fit)
+        if not np.isfinite(fit.rms):
+            continue
+        if good_enough is not None and fit.rms <= good_enough:
+            return fit
+        fits.append(fit)
     if not fits:
         raise InputError("no primitive could be fitted to these points")
     best = min(f.rms for f in fits)

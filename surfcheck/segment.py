@@ -1,0 +1,468 @@
+"""Automatic segmentation of an unlabelled (scanned) mesh into smooth faces and fillet bands.
+
+Method (see docs/segmentation.md):
+1. Local shape: degree-2 jets over a metric ball give smoothed normals, principal curvatures and a fit
+   residual per vertex; the median residual is the noise level, the jets' least-squares covariance the
+   normal's noise. Every threshold below is a multiple of these two.
+2. Region growing from seeds in the flattest places (lowest curvature first): a primitive (plane,
+   cylinder, sphere, cone; Lukacs, Martin and Marshall 1998) fitted around the seed is grown over the
+   connected faces that lie within 3 noise levels of it and whose normals agree with it, refitted and
+   grown again until the region stops changing (region growing with a global model, so it cannot creep
+   along a tangent blend; Besl and Jain 1988, "Segmentation through variable-order surface fitting").
+3. Competition: each face goes to the nearby primitive that explains it best (distance and normal),
+   which puts the boundary between two tangent primitives where they touch (a label-cost refinement in
+   the spirit of Isack and Boykov 2012, "Energy-based geometric multi-model fitting").
+4. Faces no primitive explains form leftover regions. Thin leftovers along creases and small specks go
+   to the neighbour that is nearest in distance; the rest are freeform.
+5. Bands: a curved region whose largest curvature runs across its borders with other regions (the
+   borders follow the direction of least curvature) is a piece of a blend band. Connected band pieces
+   touching two or more faces form one fillet group, measured by cross-section circle fits
+   (surfcheck.fillets).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import breadth_first_order, connected_components
+from scipy.spatial import cKDTree
+
+from surfcheck.errors import InputError
+from surfcheck.fillets import FilletRadius, measure_fillet
+from surfcheck.local_shape import LocalShape, local_shape
+from surfcheck.part import Part
+from surfcheck.primitives import Primitive, fit_simplest
+
+SCALE_EDGES = 2.5  # neighbourhood radius in median edge lengths: about 25 vertices per jet
+DISTANCE_SIGMAS = 3.0  # a face fits a primitive if its vertices' rms distance is under 3 noise levels
+NORMAL_SIGMAS = 3.5  # ... and its normal is within 3.5 normal-noise levels (growth)
+LOOSE_NORMAL_DEG = 15.0  # competition: normals may be off this much (jets are biased near creases)
+BAND_ACROSS = 0.5  # band piece: median |border tangent . d1| under this (borders run along d2)
+MAX_SEEDS = 400  # seeds tried before giving up on the rest
+
+
+@dataclass(frozen=True, eq=False)
+class SegmentGroup:
+    """One segmented group: a face (kind plane, cylinder, sphere, cone or freeform) or a fillet band."""
+
+    name: str
+    kind: str
+    faces: np.ndarray
+    area: float
+    primitive: Primitive | None
+    residual: float
+    neighbours: tuple[str, ...]
+    fillet: FilletRadius | None = None
+
+    def to_json(self) -> dict:
+        out = {
+            "name": self.name,
+            "kind": self.kind,
+            "faces": int(len(self.faces)),
+            "area": round(self.area, 6),
+            "fit_residual": None if not np.isfinite(self.residual) else round(self.residual, 6),
+            "neighbours": list(self.neighbours),
+        }
+        if self.primitive is not None:
+            out["primitive"] = self.primitive.kind
+            out["parameters"] = self.primitive.parameters()
+        if self.fillet is not None:
+            out["radius"] = self.fillet.to_json()
+        return out
+
+
+@dataclass(frozen=True, eq=False)
+class Segmentation:
+    """The labelled part, its groups, and the noise level and scale the thresholds came from."""
+
+    part: Part
+    groups: tuple[SegmentGroup, ...]
+    noise: float
+    normal_noise: float
+    scale: float
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+    @property
+    def fillets(self) -> tuple[SegmentGroup, ...]:
+        return tuple(g for g in self.groups if g.kind == "fillet")
+
+    @property
+    def faces(self) -> tuple[SegmentGroup, ...]:
+        return tuple(g for g in self.groups if g.kind != "fillet")
+
+    def group(self, name: str) -> SegmentGroup:
+        self.part.group_index(name)
+        return next(g for g in self.groups if g.name == name)
+
+    def to_json(self) -> dict:
+        return {
+            "part": self.part.source,
+            "units": self.part.units,
+            "noise": round(self.noise, 6),
+            "normal_noise_deg": round(float(np.degrees(self.normal_noise)), 4),
+            "scale": round(self.scale, 6),
+            "groups": [g.to_json() for g in self.groups],
+            "notes": list(self.notes),
+        }
+
+
+@dataclass(eq=False)
+class _Mesh:
+    """The arrays every stage uses: vertices, faces, face adjacency, smoothed face normals, areas."""
+
+    V: np.ndarray
+    F: np.ndarray
+    adjacency: sp.csr_matrix
+    centroids: np.ndarray
+    normals: np.ndarray
+    areas: np.ndarray
+    shape: LocalShape
+    noise: float
+    normal_noise: float
+
+    def distance(self, model: Primitive) -> np.ndarray:
+        """(m,) rms over each face's corners of their distance to the model."""
+        d = model.signed_distance(self.V)
+        return np.sqrt((d[self.F] ** 2).mean(axis=1))
+
+    def angle(self, model: Primitive) -> np.ndarray:
+        """(m,) angle (radians) between each face's smoothed normal and the model's normal there."""
+        cos = np.abs(np.einsum("ij,ij->i", self.normals, model.normals(self.centroids)))
+        return np.arccos(np.clip(cos, 0.0, 1.0))
+
+    def fits(self, model: Primitive, strict: bool) -> np.ndarray:
+        near = self.distance(model) < DISTANCE_SIGMAS * self.noise
+        limit = NORMAL_SIGMAS * self.normal_noise
+        if not strict:
+            limit = max(limit, np.radians(LOOSE_NORMAL_DEG))
+        return near & (self.angle(model) < limit)
+
+    def cost(self, model: Primitive) -> np.ndarray:
+        return (self.distance(model) / self.noise) ** 2 + (self.angle(model) / self.normal_noise) ** 2
+
+
+def face_adjacency(part: Part) -> sp.csr_matrix:
+    """(m, m) symmetric 0/1 matrix: faces sharing an edge."""
+    inc = part.edge_faces.astype(np.int32)
+    adjacency = (inc.T @ inc).tocsr()
+    adjacency.setdiag(0)
+    adjacency.eliminate_zeros()
+    adjacency.data[:] = 1
+    return adjacency
+
+
+def _prepare(part: Part, scale: float | None, noise: float | None) -> _Mesh:
+    h = float(np.median(part.edge_lengths))
+    rho = SCALE_EDGES * h if scale is None else float(scale)
+    if not rho > 0:
+        raise InputError(f"the neighbourhood scale must be positive; got {scale}")
+    shape = local_shape(part.vertices, part.faces, rho)
+    floor = 1e-6 * part.diagonal
+    sigma = max(float(np.median(shape.rms)) if noise is None else float(noise), floor)
+    normal_noise = max(sigma * float(np.median(shape.slope_sd)), np.radians(0.05))
+    F = part.faces
+    normals = shape.normals[F].sum(axis=1)
+    normals /= np.maximum(np.linalg.norm(normals, axis=1, keepdims=True), 1e-300)
+    centroids = part.vertices[F].mean(axis=1)
+    return _Mesh(part.vertices, F, face_adjacency(part), centroids, normals, part.face_areas, shape,
+                 sigma, normal_noise)
+
+
+def _reachable(mesh: _Mesh, allowed: np.ndarray, seed: int) -> np.ndarray:
+    """Faces reachable from ``seed`` through edge-adjacent faces that are all ``allowed``."""
+    keep = sp.diags(allowed.astype(np.float64))
+    sub = (keep @ mesh.adjacency @ keep).tocsr()
+    order = breadth_first_order(sub, seed, directed=False, return_predecessors=False)
+    return order
+
+
+def _fit_faces(mesh: _Mesh, faces: np.ndarray) -> Primitive:
+    vertices = np.unique(mesh.F[faces])
+    return _fit(mesh, vertices)
+
+
+def _fit(mesh: _Mesh, vertices: np.ndarray) -> Primitive:
+    """The simplest primitive through the vertices; one within 1.2 noise levels is taken at once."""
+    return fit_simplest(mesh.V[vertices], mesh.shape.normals[vertices], 0.25 * mesh.noise,
+                        good_enough=1.2 * mesh.noise)
+
+
+def _grow(mesh: _Mesh, free: np.ndarray, seed: int, model: Primitive) -> tuple[np.ndarray, Primitive] | None:
+    """Grow the seed's primitive over connected free faces that fit it, refit, repeat until stable."""
+    region = np.array([seed])
+    for _ in range(10):
+        allowed = free & mesh.fits(model, strict=True)
+        if not allowed[seed]:
+            return None
+        grown = _reachable(mesh, allowed, seed)
+        stable = len(region) <= len(grown) <= 1.01 * len(region)
+        region = grown
+        if stable:
+            break
+        model = _fit_faces(mesh, region)
+    return region, model
+
+
+def _seed_model(mesh: _Mesh, ball: np.ndarray) -> Primitive | None:
+    """The primitive of a seed's ball of free faces, if one fits it within 1.5 noise levels."""
+    if len(ball) < 10:
+        return None
+    try:
+        model = _fit_faces(mesh, ball)
+    except InputError:
+        return None
+    return model if model.rms <= 1.5 * mesh.noise else None
+
+
+def _grow_regions(mesh: _Mesh, min_faces: int, rho: float) -> tuple[np.ndarray, list[Primitive]]:
+    """Seeds in increasing curvature order; each grows a primitive region over unclaimed faces.
+
+    A seed is skipped when its ball (radius twice the scale) is mostly claimed already or holds no
+    primitive; a failed seed retires the faces within one scale of it as seeds.
+    """
+    m = len(mesh.F)
+    label = -np.ones(m, dtype=np.int64)
+    tried = np.zeros(m, dtype=bool)
+    flatness = (np.abs(mesh.shape.k1) + np.abs(mesh.shape.k2))[mesh.F].mean(axis=1)
+    rough = mesh.shape.rms[mesh.F].max(axis=1) > 2.0 * mesh.noise
+    order = np.argsort(flatness, kind="stable")
+    order = order[~rough[order]]
+    tree = cKDTree(mesh.centroids)
+    models: list[Primitive] = []
+    attempts = 0
+    for seed in order:
+        if label[seed] >= 0 or tried[seed]:
+            continue
+        attempts += 1
+        if attempts > MAX_SEEDS:
+            break
+        ball = np.asarray(tree.query_ball_point(mesh.centroids[seed], 2.0 * rho), dtype=np.int64)
+        free_ball = ball[label[ball] < 0]
+        model = _seed_model(mesh, free_ball) if len(free_ball) >= 0.7 * len(ball) else None
+        grown = _grow(mesh, label < 0, int(seed), model) if model is not None else None
+        if grown is None or len(grown[0]) < min_faces:
+            tried[seed] = True
+            tried[tree.query_ball_point(mesh.centroids[seed], rho)] = True
+            continue
+        label[grown[0]] = len(models)
+        models.append(grown[1])
+    return label, models
+
+
+def _nearby_labels(mesh: _Mesh, label: np.ndarray, n_labels: int, rings: int) -> sp.csr_matrix:
+    """(m, n_labels) boolean: which labels occur within ``rings`` face rings of each face."""
+    m = len(label)
+    has = label >= 0
+    present = sp.csr_matrix((np.ones(int(has.sum())), (np.flatnonzero(has), label[has])), shape=(m, n_labels))
+    step = mesh.adjacency + sp.identity(m, format="csr")
+    for _ in range(rings):
+        present = step @ present
+    return present.astype(bool).tocsr()
+
+
+def _compete(mesh: _Mesh, label: np.ndarray, models: list[Primitive], rings: int = 3) -> np.ndarray:
+    """Give each face to the nearby model that fits it at lowest cost; -1 where none fits."""
+    m, r = len(label), len(models)
+    cost = np.full((m, r), np.inf)
+    nearby = _nearby_labels(mesh, label, r, rings).toarray()
+    for j, model in enumerate(models):
+        cand = np.flatnonzero(nearby[:, j])
+        ok = np.zeros(m, dtype=bool)
+        ok[cand] = True
+        ok &= mesh.fits(model, strict=False)
+        cost[ok, j] = mesh.cost(model)[ok]
+    best = np.argmin(cost, axis=1)
+    return np.where(np.isfinite(cost[np.arange(m), best]), best, -1)
+
+
+def _largest_pieces(mesh: _Mesh, label: np.ndarray) -> np.ndarray:
+    """Keep, for each label, only its connected piece of largest area; the rest becomes -1."""
+    A = mesh.adjacency.tocoo()
+    same = (label[A.row] == label[A.col]) & (label[A.row] >= 0)
+    g = sp.csr_matrix((np.ones(int(same.sum())), (A.row[same], A.col[same])), shape=A.shape)
+    _, comp = connected_components(g, directed=False)
+    out = label.copy()
+    has = label >= 0
+    comp_area = np.bincount(comp, weights=mesh.areas)
+    best = {}
+    for c in np.unique(comp[has]):
+        lab = label[np.flatnonzero(comp == c)[0]]
+        if lab not in best or comp_area[c] > comp_area[best[lab]]:
+            best[lab] = c
+    keep = np.zeros(len(comp_area), dtype=bool)
+    keep[list(best.values())] = True
+    out[has & ~keep[comp]] = -1
+    return out
+
+
+def _leftover_components(mesh: _Mesh, label: np.ndarray) -> tuple[int, np.ndarray]:
+    A = mesh.adjacency.tocoo()
+    free = label < 0
+    both = free[A.row] & free[A.col]
+    g = sp.csr_matrix((np.ones(int(both.sum())), (A.row[both], A.col[both])), shape=A.shape)
+    return connected_components(g, directed=False)
+
+
+def _settle_leftovers(mesh: _Mesh, label: np.ndarray, models: list[Primitive], min_area: float) -> tuple[np.ndarray, list[np.ndarray]]:
+    """Absorb small or crease leftovers into their neighbours; return the freeform leftovers' faces."""
+    label = label.copy()
+    _, comp = _leftover_components(mesh, label)
+    free = np.flatnonzero(label < 0)
+    freeform = []
+    if len(free) == 0:
+        return label, freeform
+    A = mesh.adjacency
+    for c in np.unique(comp[free]):
+        faces = free[comp[free] == c]
+        neigh = np.unique(label[A[faces].indices])
+        neigh = neigh[neigh >= 0]
+        if len(neigh) == 0:
+            freeform.append(faces)
+            continue
+        dist = np.stack([mesh.distance(models[j])[faces] for j in neigh], axis=1)
+        explained = (dist.min(axis=1) < 2.0 * DISTANCE_SIGMAS * mesh.noise).mean() > 0.9
+        if mesh.areas[faces].sum() < min_area or explained:
+            label[faces] = neigh[np.argmin(dist, axis=1)]
+        else:
+            freeform.append(faces)
+    return label, freeform
+
+
+def _band_pieces(mesh: _Mesh, label: np.ndarray, kinds: list[str]) -> np.ndarray:
+    """(n_labels,) True for curved regions whose borders with other regions run along d2."""
+    A = sp.triu(mesh.adjacency).tocoo()
+    border = label[A.row] != label[A.col]
+    fa, fb = A.row[border], A.col[border]
+    shared = _shared_edge_direction(mesh, fa, fb)
+    shape = mesh.shape
+    steepest = np.where((np.abs(shape.k1) >= np.abs(shape.k2))[:, None], shape.d1, shape.d2)
+    d1 = steepest[mesh.F].mean(axis=1)
+    k1 = np.maximum(np.abs(shape.k1), np.abs(shape.k2))[mesh.F].mean(axis=1)
+    n = len(kinds)
+    pieces = np.zeros(n, dtype=bool)
+    for j in range(n):
+        if kinds[j] == "plane":
+            continue
+        side = np.concatenate([fa[label[fa] == j], fb[label[fb] == j]])
+        tang = np.concatenate([shared[label[fa] == j], shared[label[fb] == j]])
+        if len(side) < 3:
+            continue
+        faces = np.flatnonzero(label == j)
+        d = d1[side] / np.maximum(np.linalg.norm(d1[side], axis=1, keepdims=True), 1e-300)
+        across = np.median(np.abs(np.einsum("ij,ij->i", d, tang)))
+        curved = np.median(k1[faces]) * np.sqrt(mesh.areas[faces].sum()) > 1.0
+        pieces[j] = across < BAND_ACROSS and curved
+    return pieces
+
+
+def _shared_edge_direction(mesh: _Mesh, fa: np.ndarray, fb: np.ndarray) -> np.ndarray:
+    """Unit direction of the edge shared by faces fa[i] and fb[i]."""
+    Fa, Fb = mesh.F[fa], mesh.F[fb]
+    common = (Fa[:, :, None] == Fb[:, None, :]).any(axis=2)
+    first = np.argmax(common, axis=1)
+    second = 2 - np.argmax(common[:, ::-1], axis=1)
+    rows = np.arange(len(fa))
+    t = mesh.V[Fa[rows, second]] - mesh.V[Fa[rows, first]]
+    return t / np.maximum(np.linalg.norm(t, axis=1, keepdims=True), 1e-300)
+
+
+def segment_part(
+    part: Part,
+    *,
+    scale: float | None = None,
+    noise: float | None = None,
+    nominal_radius: float | None = None,
+    min_face_area: float | None = None,
+) -> Segmentation:
+    """Split an unlabelled mesh into smooth faces and fillet bands (see the module docstring).
+
+    ``scale``: the neighbourhood radius of the local fits (default 2.5 median edge lengths);
+    ``noise``: the noise level in part units (default: estimated from the fits); ``nominal_radius``:
+    the fillet radius the bands' measured radii are compared with; ``min_face_area``: smaller regions
+    are merged into their neighbours (default: a disc of twice the scale).
+    """
+    where = part.source or "part"
+    mesh = _prepare(part, scale, noise)
+    rho = SCALE_EDGES * float(np.median(part.edge_lengths)) if scale is None else float(scale)
+    min_area = np.pi * (2 * rho) ** 2 if min_face_area is None else float(min_face_area)
+    min_faces = max(10, int(min_area / max(np.median(mesh.areas), 1e-300) / 4))
+    label, models = _grow_regions(mesh, min_faces, rho)
+    if not models:
+        raise InputError(
+            f"{where}: no smooth face found (estimated noise {mesh.noise:.3g} {part.units} against a "
+            f"median edge of {np.median(part.edge_lengths):.3g}); the mesh looks like noise, not a part"
+        )
+    for _ in range(2):
+        label = _largest_pieces(mesh, _compete(mesh, label, models))
+        models = [_fit_faces(mesh, np.flatnonzero(label == j)) if (label == j).sum() >= 3 else models[j]
+                  for j in range(len(models))]
+    label, freeform = _settle_leftovers(mesh, label, models, min_area)
+    return _assemble(part, mesh, label, models, freeform, nominal_radius, rho)
+
+
+def _assemble(part, mesh, label, models, freeform, nominal_radius, rho) -> Segmentation:
+    """Classify regions into faces and bands, merge band pieces, name and measure the groups."""
+    used = [j for j in range(len(models)) if (label == j).any()]
+    remap = -np.ones(len(models) + 1, dtype=np.int64)
+    remap[used] = np.arange(len(used))
+    label = remap[label]
+    regions_model: list[Primitive | None] = [models[j] for j in used]
+    for faces in freeform:
+        label[faces] = len(regions_model)
+        regions_model.append(None)
+    kinds = [m.kind if m is not None else "freeform" for m in regions_model]
+    pieces = _band_pieces(mesh, label, kinds)
+    A = mesh.adjacency.tocoo()
+    is_piece = pieces[label]
+    link = is_piece[A.row] & is_piece[A.col]
+    g = sp.csr_matrix((np.ones(int(link.sum())), (A.row[link], A.col[link])), shape=A.shape)
+    _, comp = connected_components(g, directed=False)
+    groups_faces: list[tuple[str, np.ndarray, Primitive | None]] = []
+    consumed = np.zeros(len(kinds), dtype=bool)
+    for c in np.unique(comp[is_piece]):
+        faces = np.flatnonzero((comp == c) & is_piece)
+        outside = np.unique(label[mesh.adjacency[faces].indices])
+        faces_around = [j for j in outside if not pieces[j]]
+        if len(faces_around) >= 2:
+            members = np.unique(label[faces])
+            consumed[members] = True
+            model = regions_model[members[0]] if len(members) == 1 else None
+            groups_faces.append(("fillet", faces, model))
+    for j, kind in enumerate(kinds):
+        if not consumed[j]:
+            groups_faces.append((kind, np.flatnonzero(label == j), regions_model[j]))
+    return _named(part, mesh, groups_faces, nominal_radius, rho)
+
+
+def _named(part, mesh, groups_faces, nominal_radius, rho) -> Segmentation:
+    areas = [float(mesh.areas[f].sum()) for _, f, _ in groups_faces]
+    order = np.argsort(-np.asarray(areas), kind="stable")
+    counters: dict[str, int] = {}
+    names, face_group = [], np.zeros(len(mesh.F), dtype=np.int64)
+    for gi, k in enumerate(order):
+        kind = groups_faces[k][0]
+        counters[kind] = counters.get(kind, 0) + 1
+        names.append(f"{kind}-{counters[kind]}")
+        face_group[groups_faces[k][1]] = gi
+    labelled = part.with_groups(face_group, names)
+    A = sp.triu(mesh.adjacency).tocoo()
+    cross = face_group[A.row] != face_group[A.col]
+    pairs = np.unique(np.sort(np.stack([face_group[A.row[cross]], face_group[A.col[cross]]], 1), axis=1), axis=0)
+    groups = []
+    for gi, k in enumerate(order):
+        kind, faces, model = groups_faces[k]
+        neighbours = tuple(names[b if a == gi else a] for a, b in pairs if gi in (a, b))
+        if model is not None and kind != "fillet":
+            model = _fit_faces(mesh, faces)
+        residual = float(np.sqrt(np.mean(model.signed_distance(mesh.V[np.unique(mesh.F[faces])]) ** 2))) if model is not None else float("nan")
+        fillet = None
+        if kind == "fillet":
+            fillet = measure_fillet(labelled, gi, mesh.shape.normals, rho, nominal_radius)
+            residual = fillet.section_rms
+        groups.append(SegmentGroup(names[gi], kind, faces, areas[k], model, residual, neighbours, fillet))
+    notes = []
+    if not any(g.kind == "fillet" for g in groups):
+        notes.append("no fillet bands found" + ("; no seams found: the part is one face" if len(groups) == 1 else ""))
+    return Segmentation(labelled, tuple(groups), mesh.noise, mesh.normal_noise, rho, tuple(notes))

@@ -1,4 +1,4 @@
-"""Least-squares fits of planes, spheres, cylinders, cones and 2-D circles to point sets.
+"""Least-squares fits of planes, spheres, cylinders, cones, tori and 2-D circles to point sets.
 
 Each fit starts from an algebraic (linear) estimate and, where the algebraic estimate is not already the
 geometric optimum, refines the orthogonal distances with ``scipy.optimize.least_squares``:
@@ -7,10 +7,11 @@ geometric optimum, refines the orthogonal distances with ``scipy.optimize.least_
   (Eberly, "Least Squares Fitting of Data by Linear or Quadratic Structures", Geometric Tools);
 - sphere and circle: the linear fit of |p|^2 = 2 c.p + (r^2 - |c|^2) (Kasa 1976, "A circle fitting
   procedure and its error analysis"; Eberly, "Least Squares Fitting of Data"), then the geometric fit;
-- cylinder and cone: the axis from the normals (a cylinder's normals are perpendicular to its axis, a
-  cone's make a constant angle with it; every tangent plane of a cone passes through its apex), then the
-  geometric fit of the distance function (Lukacs, Martin and Marshall 1998, "Faithful least-squares
-  fitting of spheres, cylinders, cones and tori for reliable segmentation", ECCV).
+- cylinder, cone and torus: a start from the normals (a cylinder's normals are perpendicular to its
+  axis; a cone's make a constant angle with it and its tangent planes pass through the apex; a torus's
+  tube centres p - r n lie on a circle), then the geometric fit of the distance function (Lukacs,
+  Martin and Marshall 1998, "Faithful least-squares fitting of spheres, cylinders, cones and tori for
+  reliable segmentation", ECCV).
 
 ``Primitive.rms`` is the root-mean-square orthogonal distance of the fitted points.
 """
@@ -20,12 +21,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import least_squares
+from scipy.optimize import least_squares, minimize_scalar
 from scipy.spatial import cKDTree
 
 from surfcheck.errors import InputError
 
-KINDS = ("plane", "cylinder", "sphere", "cone")
+KINDS = ("plane", "cylinder", "sphere", "cone", "torus")
 _MAX_REFINE_POINTS = 1500  # refinement runs on a fixed random subset of large point sets
 
 
@@ -35,7 +36,8 @@ class Primitive:
 
     ``point``: plane: the centroid; sphere: the centre; cylinder: a point on the axis; cone: the apex.
     ``axis``: plane: unit normal; cylinder and cone: unit axis (cone: pointing into the opening);
-    sphere: zeros. ``radius``: sphere and cylinder radius. ``half_angle``: cone half-angle (radians).
+    sphere: zeros; torus: the centre and the unit axis. ``radius``: sphere, cylinder and torus tube
+    (minor) radius. ``major``: torus major radius. ``half_angle``: cone half-angle (radians).
     """
 
     kind: str
@@ -43,6 +45,7 @@ class Primitive:
     axis: np.ndarray
     radius: float = 0.0
     half_angle: float = 0.0
+    major: float = 0.0
     rms: float = float("nan")
     n_points: int = 0
 
@@ -57,6 +60,8 @@ class Primitive:
         rho = np.linalg.norm(q - h[:, None] * self.axis, axis=1)
         if self.kind == "cylinder":
             return rho - self.radius
+        if self.kind == "torus":
+            return np.hypot(rho - self.major, h) - self.radius
         return rho * np.cos(self.half_angle) - h * np.sin(self.half_angle)
 
     def normals(self, P: np.ndarray) -> np.ndarray:
@@ -70,7 +75,20 @@ class Primitive:
         radial = _unit(q - h[:, None] * self.axis)
         if self.kind == "cylinder":
             return radial
+        if self.kind == "torus":
+            return _unit(q - self.major * radial)
         return np.cos(self.half_angle) * radial - np.sin(self.half_angle) * self.axis
+
+    def steepest_directions(self, P: np.ndarray) -> np.ndarray | None:
+        """Unit tangent of largest |curvature| at the foot points (n,3); None where every direction
+        bends alike (plane, sphere). Cylinder and cone: around the axis; torus: along the tube's
+        cross-section circle (its curvature 1/r exceeds the other whenever r < R)."""
+        if self.kind in ("plane", "sphere"):
+            return None
+        around = _unit(np.cross(self.axis, self.normals(P)))
+        if self.kind == "torus":
+            return _unit(np.cross(self.normals(P), around))
+        return around
 
     def parameters(self) -> dict:
         """The fitted parameters as plain numbers (lengths in part units, angles in degrees)."""
@@ -81,6 +99,8 @@ class Primitive:
             return {"centre": p, "radius": self.radius}
         if self.kind == "cylinder":
             return {"axis": a, "axis_point": p, "radius": self.radius}
+        if self.kind == "torus":
+            return {"axis": a, "centre": p, "major_radius": self.major, "minor_radius": self.radius}
         return {"axis": a, "apex": p, "half_angle_deg": float(np.degrees(self.half_angle))}
 
 
@@ -171,19 +191,63 @@ def _circle_in_plane(P: np.ndarray, a: np.ndarray) -> tuple[np.ndarray, float]:
     return centre[0] * e1 + centre[1] * e2 + (P @ a).mean() * a, radius
 
 
-def _cylinder_residual(S: np.ndarray, a0: np.ndarray, c0: np.ndarray):
+def _cylinder_distance(rho, h, shape):
+    (r,) = shape
+    return rho - r, np.ones_like(rho), np.zeros_like(h), -np.ones((len(rho), 1))
+
+
+def _cone_distance(rho, h, shape):
+    (alpha,) = shape
+    ca, sa = np.cos(alpha), np.sin(alpha)
+    return rho * ca - h * sa, np.full_like(rho, ca), np.full_like(h, -sa), (-rho * sa - h * ca)[:, None]
+
+
+def _torus_distance(rho, h, shape):
+    major, r = shape
+    D = np.maximum(np.hypot(rho - major, h), 1e-300)
+    return D - r, (rho - major) / D, h / D, np.column_stack([-(rho - major) / D, -np.ones_like(rho)])
+
+
+def _refine_axial(S, a0, c0, shape0, distance, free_centre: int):
+    """Geometric least squares of a surface of revolution about an axis, with an analytic Jacobian.
+
+    ``distance(rho, h, shape)`` gives the signed distance of points at radial distance rho and axial
+    height h and its derivatives in rho, h and the shape parameters. The axis is a0 tilted by two
+    parameters; the centre moves in 2 (perpendicular to a0, for a cylinder) or 3 directions.
+    Returns (axis, centre, shape parameters, rms over S).
+    """
     e1, e2 = _perpendicular_basis(a0)
+    move = np.column_stack([e1, e2]) if free_centre == 2 else np.eye(3)
+    k = move.shape[1]
 
     def unpack(x):
-        a = _unit(a0 + x[0] * e1 + x[1] * e2)
-        return a, c0 + x[2] * e1 + x[3] * e2, x[4]
+        b = a0 + x[0] * e1 + x[1] * e2
+        return b / np.linalg.norm(b), c0 + move @ x[2 : 2 + k], x[2 + k :], np.linalg.norm(b)
+
+    def geometry(x):
+        a, c, shape, nb = unpack(x)
+        q = S - c
+        h = q @ a
+        w = q - np.outer(h, a)
+        rho = np.linalg.norm(w, axis=1)
+        return a, q, h, w / np.maximum(rho, 1e-300)[:, None], rho, shape, nb
 
     def residual(x):
-        a, c, r = unpack(x)
-        q = S - c
-        return np.linalg.norm(q - np.outer(q @ a, a), axis=1) - r
+        _, _, h, _, rho, shape, _ = geometry(x)
+        return distance(rho, h, shape)[0]
 
-    return residual, unpack
+    def jacobian(x):
+        a, q, h, w_hat, rho, shape, nb = geometry(x)
+        _, d_rho, d_h, d_shape = distance(rho, h, shape)
+        d_c = -d_rho[:, None] * w_hat - d_h[:, None] * a
+        d_a = -(d_rho * h)[:, None] * w_hat + d_h[:, None] * q
+        tilt = (np.eye(3) - np.outer(a, a)) @ np.column_stack([e1, e2]) / nb
+        return np.hstack([d_a @ tilt, d_c @ move, d_shape])
+
+    x0 = np.concatenate([[0.0, 0.0], np.zeros(k), shape0])
+    res = least_squares(residual, x0, jac=jacobian, method="lm", max_nfev=100)
+    a, c, shape, _ = unpack(res.x)
+    return a, c, shape, float(np.sqrt(np.mean(res.fun**2)))
 
 
 def fit_cylinder(points: np.ndarray, normals: np.ndarray | None = None) -> Primitive:
@@ -201,13 +265,12 @@ def fit_cylinder(points: np.ndarray, normals: np.ndarray | None = None) -> Primi
     best = None
     for a0 in (vecs[:, 0], *pca):
         c0, r0 = _circle_in_plane(P, a0)
-        residual, unpack = _cylinder_residual(S, a0, c0)
-        res = least_squares(residual, np.array([0, 0, 0, 0, r0]), method="lm", max_nfev=400)
-        if best is None or res.cost < best[0]:
-            best = (res.cost, unpack(res.x))
-        if np.sqrt(2 * best[0] / len(S)) < 0.05 * abs(best[1][2]):
+        a, c, (r,), rms = _refine_axial(S, a0, c0, [r0], _cylinder_distance, free_centre=2)
+        if best is None or rms < best[0]:
+            best = (rms, a, c, r)
+        if best[0] < 0.05 * abs(best[3]):
             break
-    a, c, r = best[1]
+    _, a, c, r = best
     c = c + ((P - c) @ a).mean() * a  # the axis point nearest the points' centre
     return _finish("cylinder", P, point=c, axis=a, radius=float(abs(r)))
 
@@ -230,22 +293,44 @@ def fit_cone(points: np.ndarray, normals: np.ndarray | None = None) -> Primitive
     h = q @ a0
     rho = np.linalg.norm(q - np.outer(h, a0), axis=1)
     alpha0 = float(np.arctan2(rho.mean(), max(h.mean(), 1e-12)))
-    e1, e2 = _perpendicular_basis(a0)
     S, = _subset(P)
-
-    def unpack(x):
-        return _unit(a0 + x[0] * e1 + x[1] * e2), apex + x[2:5], x[5]
-
-    def residual(x):
-        a, c, alpha = unpack(x)
-        s = S - c
-        hh = s @ a
-        rr = np.linalg.norm(s - np.outer(hh, a), axis=1)
-        return rr * np.cos(alpha) - hh * np.sin(alpha)
-
-    res = least_squares(residual, np.array([0, 0, 0, 0, 0, alpha0]), method="lm", max_nfev=150)
-    a, c, alpha = unpack(res.x)
+    a, c, (alpha,), _ = _refine_axial(S, a0, apex, [alpha0], _cone_distance, free_centre=3)
     return _finish("cone", P, point=c, axis=a, half_angle=float(alpha))
+
+
+def _spine_misfit(P: np.ndarray, N: np.ndarray, r: float) -> tuple[float, np.ndarray, np.ndarray, float]:
+    """How far the tube centres P - r N are from a circle: (rms, centre, axis, circle radius)."""
+    spine = P - r * N
+    plane = fit_plane(spine)
+    e1, e2 = _perpendicular_basis(plane.axis)
+    flat = np.column_stack([(spine - plane.point) @ e1, (spine - plane.point) @ e2])
+    A = np.column_stack([2 * flat, np.ones(len(flat))])
+    sol, *_ = np.linalg.lstsq(A, (flat**2).sum(axis=1), rcond=None)
+    R = float(np.sqrt(max(sol[2] + sol[:2] @ sol[:2], 0.0)))
+    off = np.linalg.norm(flat - sol[:2], axis=1) - R
+    rms = float(np.sqrt(np.mean(off**2) + plane.rms**2))
+    return rms, plane.point + sol[0] * e1 + sol[1] * e2, plane.axis, R
+
+
+def fit_torus(points: np.ndarray, normals: np.ndarray | None = None) -> Primitive:
+    """Torus (Lukacs, Martin and Marshall 1998): the tube centres p - r n lie on a circle (the spine)
+    for the right tube radius r, found by a bounded scalar search; then the geometric fit of (centre,
+    axis, major radius, tube radius) to the distance sqrt((rho - R)^2 + h^2) - r.
+    """
+    P = _checked(points, 8)
+    N = estimate_normals(P) if normals is None else _unit(np.asarray(normals, dtype=np.float64))
+    S, NS = _subset(P, N)
+    extent = float(np.linalg.norm(S.max(axis=0) - S.min(axis=0)))
+    best = None
+    for sign in (1.0, -1.0):
+        found = minimize_scalar(lambda r: _spine_misfit(S, NS, sign * r)[0], bounds=(1e-3 * extent, 2 * extent),
+                                method="bounded", options={"xatol": 1e-4 * extent})
+        if best is None or found.fun < best[0]:
+            best = (found.fun, sign * found.x)
+    r0 = best[1]
+    _, c0, a0, R0 = _spine_misfit(S, NS, r0)
+    a, c, (R, r), _ = _refine_axial(S, a0, c0, [R0, abs(r0)], _torus_distance, free_centre=3)
+    return _finish("torus", P, point=c, axis=a, radius=float(abs(r)), major=float(R))
 
 
 _FITTERS = {
@@ -253,11 +338,12 @@ _FITTERS = {
     "sphere": lambda P, N: fit_sphere(P),
     "cylinder": fit_cylinder,
     "cone": fit_cone,
+    "torus": fit_torus,
 }
 
 
 def fit_primitive(kind: str, points: np.ndarray, normals: np.ndarray | None = None) -> Primitive:
-    """Fit one kind of primitive ("plane", "cylinder", "sphere" or "cone")."""
+    """Fit one kind of primitive ("plane", "cylinder", "sphere", "cone" or "torus")."""
     if kind not in _FITTERS:
         raise InputError(f"unknown primitive kind {kind!r}; choose one of {', '.join(KINDS)}")
     return _FITTERS[kind](points, normals)

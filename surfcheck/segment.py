@@ -33,13 +33,14 @@ from surfcheck.errors import InputError
 from surfcheck.fillets import FilletRadius, measure_fillet
 from surfcheck.local_shape import LocalShape, local_shape
 from surfcheck.part import Part
-from surfcheck.primitives import Primitive, fit_simplest
+from surfcheck.primitives import KINDS, Primitive, fit_simplest
 
 SCALE_EDGES = 2.5  # neighbourhood radius in median edge lengths: about 25 vertices per jet
 DISTANCE_SIGMAS = 3.0  # a face fits a primitive if its vertices' rms distance is under 3 noise levels
-NORMAL_SIGMAS = 3.5  # ... and its normal is within 3.5 normal-noise levels (growth)
+NORMAL_SIGMAS = 3.5  # ... and its normal is within 3.5 normal-noise levels
 LOOSE_NORMAL_DEG = 15.0  # competition: normals may be off this much (jets are biased near creases)
-BAND_ACROSS = 0.5  # band piece: median |border tangent . d1| under this (borders run along d2)
+BAND_ACROSS = 0.5  # band piece: median |border tangent . steepest direction| under this
+TANGENT_DEG = 12.0  # band piece: median angle between the normals across its borders under this
 MAX_SEEDS = 400  # seeds tried before giving up on the rest
 
 
@@ -133,6 +134,9 @@ class _Mesh:
         return np.arccos(np.clip(cos, 0.0, 1.0))
 
     def fits(self, model: Primitive, strict: bool) -> np.ndarray:
+        """Faces within 3 noise levels of the model whose normals agree with it: within 3.5
+        normal-noise levels (strict), or within LOOSE_NORMAL_DEG (loose: a jet within its radius of
+        a crease or of a curvature step is off by more than its noise)."""
         near = self.distance(model) < DISTANCE_SIGMAS * self.noise
         limit = NORMAL_SIGMAS * self.normal_noise
         if not strict:
@@ -178,31 +182,44 @@ def _reachable(mesh: _Mesh, allowed: np.ndarray, seed: int) -> np.ndarray:
     return order
 
 
-def _fit_faces(mesh: _Mesh, faces: np.ndarray) -> Primitive:
-    vertices = np.unique(mesh.F[faces])
-    return _fit(mesh, vertices)
+def _fit_faces(mesh: _Mesh, faces: np.ndarray, prefer: str | None = None) -> Primitive:
+    return _fit(mesh, np.unique(mesh.F[faces]), prefer)
 
 
-def _fit(mesh: _Mesh, vertices: np.ndarray) -> Primitive:
-    """The simplest primitive through the vertices; one within 1.2 noise levels is taken at once."""
-    return fit_simplest(mesh.V[vertices], mesh.shape.normals[vertices], 0.25 * mesh.noise,
+def _fit(mesh: _Mesh, vertices: np.ndarray, prefer: str | None = None) -> Primitive:
+    """The simplest primitive through the vertices; one within 1.2 noise levels is taken at once, and
+    the ``prefer``red kind (the region's current one) is tried first."""
+    kinds = KINDS if prefer is None else (prefer, *(k for k in KINDS if k != prefer))
+    return fit_simplest(mesh.V[vertices], mesh.shape.normals[vertices], 0.25 * mesh.noise, kinds,
                         good_enough=1.2 * mesh.noise)
 
 
 def _grow(mesh: _Mesh, free: np.ndarray, seed: int, model: Primitive) -> tuple[np.ndarray, Primitive] | None:
-    """Grow the seed's primitive over connected free faces that fit it, refit, repeat until stable."""
-    region = np.array([seed])
-    for _ in range(10):
-        allowed = free & mesh.fits(model, strict=True)
-        if not allowed[seed]:
-            return None
-        grown = _reachable(mesh, allowed, seed)
-        stable = len(region) <= len(grown) <= 1.01 * len(region)
-        region = grown
-        if stable:
+    """Grow the seed's primitive over connected free faces that fit it, refit, repeat until stable.
+
+    First with the strict normal test; a curved primitive then goes on with the loose one, since the
+    jets across a fillet narrower than a few scales are all bent by its tangent lines. A plane stays
+    strict, so it cannot creep into a G2 or G3 blend whose curvature starts from zero. If a refit no
+    longer holds the seed, the last region that did is kept.
+    """
+    region, kept = None, None
+    for strict in (True, False):
+        if not strict and kept is not None and kept.kind == "plane":
             break
-        model = _fit_faces(mesh, region)
-    return region, model
+        for _ in range(10):
+            allowed = free & mesh.fits(model, strict=strict)
+            if not allowed[seed]:
+                break
+            grown = _reachable(mesh, allowed, seed)
+            stable = region is not None and len(region) <= len(grown) <= 1.01 * len(region)
+            region, kept = grown, model
+            if stable:
+                break
+            model = _fit_faces(mesh, region, prefer=model.kind)
+        if kept is None:
+            return None
+        model = kept
+    return region, kept
 
 
 def _seed_model(mesh: _Mesh, ball: np.ndarray) -> Primitive | None:
@@ -219,7 +236,7 @@ def _seed_model(mesh: _Mesh, ball: np.ndarray) -> Primitive | None:
 def _grow_regions(mesh: _Mesh, min_faces: int, rho: float) -> tuple[np.ndarray, list[Primitive]]:
     """Seeds in increasing curvature order; each grows a primitive region over unclaimed faces.
 
-    A seed is skipped when its ball (radius twice the scale) is mostly claimed already or holds no
+    A seed is skipped when its ball (radius 1.5 scales) is mostly claimed already or holds no
     primitive; a failed seed retires the faces within one scale of it as seeds.
     """
     m = len(mesh.F)
@@ -238,7 +255,7 @@ def _grow_regions(mesh: _Mesh, min_faces: int, rho: float) -> tuple[np.ndarray, 
         attempts += 1
         if attempts > MAX_SEEDS:
             break
-        ball = np.asarray(tree.query_ball_point(mesh.centroids[seed], 2.0 * rho), dtype=np.int64)
+        ball = np.asarray(tree.query_ball_point(mesh.centroids[seed], 1.5 * rho), dtype=np.int64)
         free_ball = ball[label[ball] < 0]
         model = _seed_model(mesh, free_ball) if len(free_ball) >= 0.7 * len(ball) else None
         grown = _grow(mesh, label < 0, int(seed), model) if model is not None else None
@@ -249,6 +266,40 @@ def _grow_regions(mesh: _Mesh, min_faces: int, rho: float) -> tuple[np.ndarray, 
         label[grown[0]] = len(models)
         models.append(grown[1])
     return label, models
+
+
+def _merge_regions(mesh: _Mesh, label: np.ndarray, models: list[Primitive]) -> tuple[np.ndarray, list[Primitive]]:
+    """Merge neighbouring regions that one primitive fits within 1.2 noise levels (pieces of one
+    surface grown from different seeds). Returns relabelled faces and the surviving models."""
+    label, models = label.copy(), list(models)
+    alive = [True] * len(models)
+    failed: set[tuple[int, int]] = set()
+    merged_any = True
+    while merged_any:
+        merged_any = False
+        for i, j in _adjacent_pairs(mesh, label):
+            if (i, j) in failed or not (alive[i] and alive[j]):
+                continue
+            union = np.flatnonzero((label == i) | (label == j))
+            model = _fit_faces(mesh, union, prefer=models[i].kind)
+            if model.rms <= 1.2 * mesh.noise:
+                label[label == j] = i
+                models[i], alive[j] = model, False
+                merged_any = True
+            else:
+                failed.add((i, j))
+    keep = [j for j in range(len(models)) if alive[j]]
+    remap = -np.ones(len(models) + 1, dtype=np.int64)
+    remap[keep] = np.arange(len(keep))
+    return remap[label], [models[j] for j in keep]
+
+
+def _adjacent_pairs(mesh: _Mesh, label: np.ndarray, rings: int = 4) -> list[tuple[int, int]]:
+    """Pairs (i < j) of labels >= 0 that come within ``rings`` face rings of each other."""
+    n_labels = int(label.max()) + 1 if (label >= 0).any() else 0
+    present = _nearby_labels(mesh, label, n_labels, rings).astype(np.int32)
+    together = sp.triu(present.T @ present, k=1).tocoo()
+    return sorted(zip(together.row.tolist(), together.col.tolist()))
 
 
 def _nearby_labels(mesh: _Mesh, label: np.ndarray, n_labels: int, rings: int) -> sp.csr_matrix:
@@ -330,31 +381,54 @@ def _settle_leftovers(mesh: _Mesh, label: np.ndarray, models: list[Primitive], m
     return label, freeform
 
 
-def _band_pieces(mesh: _Mesh, label: np.ndarray, kinds: list[str]) -> np.ndarray:
-    """(n_labels,) True for curved regions whose borders with other regions run along d2."""
+def _band_pieces(mesh: _Mesh, label: np.ndarray, models: list[Primitive | None]) -> np.ndarray:
+    """(n_labels,) True for the curved regions that are pieces of blend bands.
+
+    A band piece bends noticeably, meets every neighbour tangentially (median angle between the two
+    sides' normals along the border under TANGENT_DEG) and its largest curvature runs across its borders
+    (median |border tangent . steepest direction| under BAND_ACROSS): a fillet's borders follow its
+    direction of least curvature, a cylinder boss's borders go round it.
+    """
     A = sp.triu(mesh.adjacency).tocoo()
     border = label[A.row] != label[A.col]
     fa, fb = A.row[border], A.col[border]
-    shared = _shared_edge_direction(mesh, fa, fb)
-    shape = mesh.shape
-    steepest = np.where((np.abs(shape.k1) >= np.abs(shape.k2))[:, None], shape.d1, shape.d2)
-    d1 = steepest[mesh.F].mean(axis=1)
-    k1 = np.maximum(np.abs(shape.k1), np.abs(shape.k2))[mesh.F].mean(axis=1)
-    n = len(kinds)
-    pieces = np.zeros(n, dtype=bool)
-    for j in range(n):
-        if kinds[j] == "plane":
-            continue
-        side = np.concatenate([fa[label[fa] == j], fb[label[fb] == j]])
-        tang = np.concatenate([shared[label[fa] == j], shared[label[fb] == j]])
-        if len(side) < 3:
+    tangent = _shared_edge_direction(mesh, fa, fb)
+    side_normal = mesh.normals.copy()
+    steepest = _jet_steepest(mesh)
+    for j, model in enumerate(models):
+        if model is None:
             continue
         faces = np.flatnonzero(label == j)
-        d = d1[side] / np.maximum(np.linalg.norm(d1[side], axis=1, keepdims=True), 1e-300)
-        across = np.median(np.abs(np.einsum("ij,ij->i", d, tang)))
-        curved = np.median(k1[faces]) * np.sqrt(mesh.areas[faces].sum()) > 1.0
-        pieces[j] = across < BAND_ACROSS and curved
+        side_normal[faces] = model.normals(mesh.centroids[faces])
+        own = model.steepest_directions(mesh.centroids[faces])
+        if own is not None:
+            steepest[faces] = own
+    bend = np.arccos(np.clip(np.abs(np.einsum("ij,ij->i", side_normal[fa], side_normal[fb])), 0, 1))
+    k = np.maximum(np.abs(mesh.shape.k1), np.abs(mesh.shape.k2))[mesh.F].mean(axis=1)
+    pieces = np.zeros(len(models), dtype=bool)
+    for j, model in enumerate(models):
+        if model is not None and model.kind == "plane":
+            continue
+        on_a, on_b = label[fa] == j, label[fb] == j
+        side = np.concatenate([fa[on_a], fb[on_b]])
+        if len(side) < 3:
+            continue
+        tang = np.concatenate([tangent[on_a], tangent[on_b]])
+        across = np.median(np.abs(np.einsum("ij,ij->i", steepest[side], tang)))
+        smooth = np.median(np.concatenate([bend[on_a], bend[on_b]])) < np.radians(TANGENT_DEG)
+        faces = label == j
+        curved = np.median(k[faces]) * np.sqrt(mesh.areas[faces].sum()) > 1.0
+        pieces[j] = across < BAND_ACROSS and smooth and curved
     return pieces
+
+
+def _jet_steepest(mesh: _Mesh) -> np.ndarray:
+    """(m,3) per face, the jets' principal direction of largest |curvature| (sign-aligned average)."""
+    shape = mesh.shape
+    d = np.where((np.abs(shape.k1) >= np.abs(shape.k2))[:, None], shape.d1, shape.d2)[mesh.F]
+    d = d * np.sign(np.einsum("fki,fi->fk", d, d[:, 0]))[..., None]
+    d = d.sum(axis=1)
+    return d / np.maximum(np.linalg.norm(d, axis=1, keepdims=True), 1e-300)
 
 
 def _shared_edge_direction(mesh: _Mesh, fa: np.ndarray, fb: np.ndarray) -> np.ndarray:
@@ -388,7 +462,7 @@ def segment_part(
     rho = SCALE_EDGES * float(np.median(part.edge_lengths)) if scale is None else float(scale)
     min_area = np.pi * (2 * rho) ** 2 if min_face_area is None else float(min_face_area)
     min_faces = max(10, int(min_area / max(np.median(mesh.areas), 1e-300) / 4))
-    label, models = _grow_regions(mesh, min_faces, rho)
+    label, models = _merge_regions(mesh, *_grow_regions(mesh, min_faces, rho))
     if not models:
         raise InputError(
             f"{where}: no smooth face found (estimated noise {mesh.noise:.3g} {part.units} against a "
@@ -413,7 +487,7 @@ def _assemble(part, mesh, label, models, freeform, nominal_radius, rho) -> Segme
         label[faces] = len(regions_model)
         regions_model.append(None)
     kinds = [m.kind if m is not None else "freeform" for m in regions_model]
-    pieces = _band_pieces(mesh, label, kinds)
+    pieces = _band_pieces(mesh, label, regions_model)
     A = mesh.adjacency.tocoo()
     is_piece = pieces[label]
     link = is_piece[A.row] & is_piece[A.col]

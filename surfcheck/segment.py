@@ -41,6 +41,7 @@ NORMAL_SIGMAS = 3.5  # ... and its normal is within 3.5 normal-noise levels
 LOOSE_NORMAL_DEG = 15.0  # competition: normals may be off this much (jets are biased near creases)
 BAND_ACROSS = 0.5  # band piece: median |border tangent . steepest direction| under this
 TANGENT_DEG = 12.0  # band piece: median angle between the normals across its borders under this
+MAX_ROUGHNESS_DEG = 40.0  # median angle between neighbouring triangles above which there is no surface
 MAX_SEEDS = 400  # seeds tried before giving up on the rest
 
 
@@ -157,7 +158,26 @@ def face_adjacency(part: Part) -> sp.csr_matrix:
     return adjacency
 
 
+def roughness_deg(part: Part, adjacency: sp.csr_matrix) -> float:
+    """Median angle (degrees) between the normals of edge-adjacent triangles."""
+    V, F = part.vertices, part.faces
+    n = np.cross(V[F[:, 1]] - V[F[:, 0]], V[F[:, 2]] - V[F[:, 0]])
+    n /= np.maximum(np.linalg.norm(n, axis=1, keepdims=True), 1e-300)
+    A = sp.triu(adjacency).tocoo()
+    if not len(A.row):
+        return 0.0
+    cos = np.abs(np.einsum("ij,ij->i", n[A.row], n[A.col]))
+    return float(np.degrees(np.median(np.arccos(np.clip(cos, 0.0, 1.0)))))
+
+
 def _prepare(part: Part, scale: float | None, noise: float | None) -> _Mesh:
+    adjacency = face_adjacency(part)
+    rough = roughness_deg(part, adjacency)
+    if rough > MAX_ROUGHNESS_DEG:
+        raise InputError(
+            f"{part.source or 'part'}: neighbouring triangles differ by {rough:.0f} degrees in the median; "
+            "the mesh looks like a noise cloud, not a surface; smooth or re-mesh the scan first"
+        )
     h = float(np.median(part.edge_lengths))
     rho = SCALE_EDGES * h if scale is None else float(scale)
     if not rho > 0:
@@ -170,7 +190,7 @@ def _prepare(part: Part, scale: float | None, noise: float | None) -> _Mesh:
     normals = shape.normals[F].sum(axis=1)
     normals /= np.maximum(np.linalg.norm(normals, axis=1, keepdims=True), 1e-300)
     centroids = part.vertices[F].mean(axis=1)
-    return _Mesh(part.vertices, F, face_adjacency(part), centroids, normals, part.face_areas, shape,
+    return _Mesh(part.vertices, F, adjacency, centroids, normals, part.face_areas, shape,
                  sigma, normal_noise)
 
 
@@ -387,12 +407,14 @@ def _band_pieces(mesh: _Mesh, label: np.ndarray, models: list[Primitive | None])
     A band piece bends noticeably, meets every neighbour tangentially (median angle between the two
     sides' normals along the border under TANGENT_DEG) and its largest curvature runs across its borders
     (median |border tangent . steepest direction| under BAND_ACROSS): a fillet's borders follow its
-    direction of least curvature, a cylinder boss's borders go round it.
+    direction of least curvature, a cylinder boss's borders go round it. The steepest direction is the
+    primitive's where it fits within 1.2 noise levels (jets beside a border see the neighbour's
+    curvature), the jets' elsewhere.
     """
     A = sp.triu(mesh.adjacency).tocoo()
     border = label[A.row] != label[A.col]
     fa, fb = A.row[border], A.col[border]
-    tangent = _shared_edge_direction(mesh, fa, fb)
+    tangent = _border_direction(mesh, fa, fb, label)
     side_normal = mesh.normals.copy()
     steepest = _jet_steepest(mesh)
     for j, model in enumerate(models):
@@ -400,7 +422,7 @@ def _band_pieces(mesh: _Mesh, label: np.ndarray, models: list[Primitive | None])
             continue
         faces = np.flatnonzero(label == j)
         side_normal[faces] = model.normals(mesh.centroids[faces])
-        own = model.steepest_directions(mesh.centroids[faces])
+        own = model.steepest_directions(mesh.centroids[faces]) if model.rms <= 1.2 * mesh.noise else None
         if own is not None:
             steepest[faces] = own
     bend = np.arccos(np.clip(np.abs(np.einsum("ij,ij->i", side_normal[fa], side_normal[fb])), 0, 1))
@@ -431,15 +453,28 @@ def _jet_steepest(mesh: _Mesh) -> np.ndarray:
     return d / np.maximum(np.linalg.norm(d, axis=1, keepdims=True), 1e-300)
 
 
-def _shared_edge_direction(mesh: _Mesh, fa: np.ndarray, fb: np.ndarray) -> np.ndarray:
-    """Unit direction of the edge shared by faces fa[i] and fb[i]."""
+def _border_direction(mesh: _Mesh, fa: np.ndarray, fb: np.ndarray, label: np.ndarray, k: int = 12) -> np.ndarray:
+    """Unit direction of the border between two regions at each border edge (faces fa[i] | fb[i]):
+    the principal axis of the k nearest border-edge midpoints of the same pair of regions, so that a
+    ragged staircase of mesh edges still gives the direction the border runs in."""
     Fa, Fb = mesh.F[fa], mesh.F[fb]
     common = (Fa[:, :, None] == Fb[:, None, :]).any(axis=2)
     first = np.argmax(common, axis=1)
     second = 2 - np.argmax(common[:, ::-1], axis=1)
     rows = np.arange(len(fa))
-    t = mesh.V[Fa[rows, second]] - mesh.V[Fa[rows, first]]
-    return t / np.maximum(np.linalg.norm(t, axis=1, keepdims=True), 1e-300)
+    mid = 0.5 * (mesh.V[Fa[rows, first]] + mesh.V[Fa[rows, second]])
+    pair = np.sort(np.stack([label[fa], label[fb]], 1), axis=1)
+    _, group = np.unique(pair, axis=0, return_inverse=True)
+    direction = np.zeros_like(mid)
+    for g in np.unique(group):
+        idx = np.flatnonzero(group == g)
+        kk = min(k, len(idx))
+        _, near = cKDTree(mid[idx]).query(mid[idx], k=kk)
+        Q = mid[idx][near.reshape(len(idx), kk)]
+        Q = Q - Q.mean(axis=1, keepdims=True)
+        _, vecs = np.linalg.eigh(np.einsum("nki,nkj->nij", Q, Q))
+        direction[idx] = vecs[:, :, 2]
+    return direction
 
 
 def segment_part(

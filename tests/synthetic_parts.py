@@ -19,69 +19,70 @@ from surfcheck.part import Part
 
 @dataclass(frozen=True)
 class Profile:
-    """A sampled 2-D profile: points (k,2), piece (k-1,) label of each segment, the pieces' names and
-    fillet radii (0 for a straight piece)."""
+    """A sampled 2-D profile: points (k,2), piece (k-1,) label of each segment, the pieces' names, kinds
+    ("wall", "arc" or "blend-G2"/"blend-G3") and radii (the arc radius, 0 otherwise)."""
 
     points: np.ndarray
     piece: np.ndarray
     names: tuple[str, ...]
+    kinds: tuple[str, ...]
     radii: tuple[float, ...]
 
 
-def filleted_profile(corners, radii, spacing: float) -> Profile:
-    """The open polyline through ``corners`` with interior corner i rounded by radius ``radii[i-1]``."""
-    C = np.asarray(corners, dtype=float)
-    pieces: list[np.ndarray] = []
-    kinds: list[float] = []
-    start = C[0]
-    for i in range(1, len(C) - 1):
-        u_in = (C[i] - C[i - 1]) / np.linalg.norm(C[i] - C[i - 1])
-        u_out = (C[i + 1] - C[i]) / np.linalg.norm(C[i + 1] - C[i])
-        r = radii[i - 1]
-        if r <= 0:
-            pieces.append(_line(start, C[i], spacing))
-            kinds.append(0.0)
-            start = C[i]
+def _blend_curvature(t: np.ndarray, order: int) -> np.ndarray:
+    """Curvature shape over a blend, integrating to 1: the derivative of the Hermite smoothstep of
+    degree 2k+1 (k = order - 1), so curvature starts from zero with order-2 vanishing derivatives."""
+    if order == 2:
+        return 6 * t * (1 - t)
+    if order == 3:
+        return 30 * t**2 * (1 - t) ** 2
+    raise ValueError("blend order must be 2 or 3")
+
+
+def turtle_profile(start, heading_deg: float, steps, spacing: float) -> Profile:
+    """A profile drawn by steps from ``start``: ("line", length), ("arc", radius, turn_deg),
+    ("blend", length, turn_deg, order) or ("corner", turn_deg); positive turns are anticlockwise.
+
+    Each line, arc or blend is one labelled piece; blends turn by curvature theta S'(s/L)/L with S
+    the smoothstep (order 2: 3t^2 - 2t^3, order 3: 6t^5 - 15t^4 + 10t^3), integrated numerically.
+    """
+    position = np.asarray(start, dtype=float)
+    heading = np.radians(heading_deg)
+    points, piece, names, kinds, radii = [position[None]], [], [], [], []
+    walls = fillets = 0
+    for step in steps:
+        if step[0] == "corner":
+            heading += np.radians(step[1])
             continue
-        turn = np.arccos(np.clip(u_in @ u_out, -1, 1))
-        tangent = r * np.tan(turn / 2)
-        a, b = C[i] - tangent * u_in, C[i] + tangent * u_out
-        left = np.sign(u_in[0] * u_out[1] - u_in[1] * u_out[0])
-        centre = a + r * left * np.array([-u_in[1], u_in[0]])
-        pieces.append(_line(start, a, spacing))
-        kinds.append(0.0)
-        pieces.append(_arc(centre, a, b, r, left, spacing))
-        kinds.append(r)
-        start = b
-    pieces.append(_line(start, C[-1], spacing))
-    kinds.append(0.0)
-    points = [pieces[0][:1]] + [p[1:] for p in pieces]
-    piece = np.concatenate([np.full(len(p) - 1, j) for j, p in enumerate(pieces)])
-    n_plane = n_fillet = 0
-    names = []
-    for r in kinds:
-        if r > 0:
-            n_fillet += 1
-            names.append(f"true-fillet-{n_fillet}")
+        if step[0] == "line":
+            length, turn, shape = step[1], 0.0, None
+        elif step[0] == "arc":
+            length, turn, shape = step[1] * np.radians(abs(step[2])), np.radians(step[2]), "arc"
         else:
-            n_plane += 1
-            names.append(f"true-wall-{n_plane}")
-    return Profile(np.vstack(points), piece, tuple(names), tuple(kinds))
-
-
-def _line(a, b, spacing):
-    n = max(int(np.ceil(np.linalg.norm(b - a) / spacing)), 1)
-    t = np.linspace(0, 1, n + 1)[:, None]
-    return a + t * (b - a)
-
-
-def _arc(centre, a, b, r, left, spacing):
-    t0 = np.arctan2(*(a - centre)[::-1])
-    t1 = np.arctan2(*(b - centre)[::-1])
-    sweep = (t1 - t0) % (2 * np.pi) if left > 0 else -((t0 - t1) % (2 * np.pi))
-    n = max(int(np.ceil(abs(sweep) * r / spacing)), 2)
-    t = t0 + np.linspace(0, sweep, n + 1)
-    return centre + r * np.column_stack([np.cos(t), np.sin(t)])
+            length, turn, shape = step[1], np.radians(step[2]), f"blend-G{step[3]}"
+        n = max(int(np.ceil(length / spacing)), 2)
+        fine = np.linspace(0.0, 1.0, 16 * n + 1)
+        if shape is None:
+            kappa = np.zeros_like(fine)
+        elif shape == "arc":
+            kappa = np.full_like(fine, turn / length)
+        else:
+            kappa = turn / length * _blend_curvature(fine, step[3])
+        angle = heading + np.concatenate([[0.0], np.cumsum(0.5 * (kappa[1:] + kappa[:-1]) * np.diff(fine) * length)])
+        step_xy = np.column_stack([np.cos(angle), np.sin(angle)])
+        path = position + np.concatenate([[[0, 0]], np.cumsum(0.5 * (step_xy[1:] + step_xy[:-1]) * (length / (16 * n)), axis=0)])
+        points.append(path[16::16])
+        piece.append(np.full(n, len(names)))
+        position, heading = path[-1], angle[-1]
+        if shape is None:
+            walls += 1
+            names.append(f"true-wall-{walls}")
+        else:
+            fillets += 1
+            names.append(f"true-fillet-{fillets}")
+        kinds.append(shape or "wall")
+        radii.append(step[1] if shape == "arc" else 0.0)
+    return Profile(np.vstack(points), np.concatenate(piece), tuple(names), tuple(kinds), tuple(radii))
 
 
 def extrude(profile: Profile, length: float, spacing: float) -> Part:
@@ -102,7 +103,7 @@ def extrude(profile: Profile, length: float, spacing: float) -> Part:
 def revolve(profile: Profile, segments: int) -> Part:
     """The (r, z) profile revolved about z; ends with r = 0 close as fans, one group per piece."""
     P = profile.points
-    on_axis = np.isclose(P[:, 0], 0.0)
+    on_axis = np.abs(P[:, 0]) < 1e-3 * np.abs(P[:, 0]).max()
     theta = np.linspace(0, 2 * np.pi, segments, endpoint=False)
     rows, vertices = [], []
     count = 0
@@ -144,14 +145,25 @@ def scanned(part: Part, noise: float, seed: int, rotate: bool = True) -> tuple[P
 def bracket(spacing: float = 0.8) -> tuple[Part, Profile]:
     """An extruded bracket, 40 mm long: five plane walls, three circular fillets (radius 6 over 90
     degrees, 8 over 45 degrees, 5 over 90 degrees) and one sharp 45-degree corner."""
-    corners = [(0, 0), (40, 0), (40, 25), (55, 40), (85, 40), (85, 10)]
-    profile = filleted_profile(corners, [6.0, 0.0, 8.0, 5.0], spacing)
+    steps = [("line", 34), ("arc", 6, 90), ("line", 19), ("corner", -45), ("line", 18), ("arc", 8, -45),
+             ("line", 22), ("arc", 5, -90), ("line", 25)]
+    profile = turtle_profile((0, 0), 0, steps, spacing)
+    return extrude(profile, 40.0, spacing), profile
+
+
+def housing(spacing: float = 0.8) -> tuple[Part, Profile]:
+    """An extruded housing wall, 40 mm long: plane walls joined by a sharp corner, a circular fillet
+    (radius 6), a G2 blend and a G3 blend (each 10 mm long, turning 90 degrees)."""
+    steps = [("line", 25), ("corner", 60), ("line", 20), ("arc", 6, -60), ("line", 20), ("blend", 10, -90, 2),
+             ("line", 20), ("blend", 10, -90, 3), ("line", 25)]
+    profile = turtle_profile((0, 0), 0, steps, spacing)
     return extrude(profile, 40.0, spacing), profile
 
 
 def boss_on_plate(segments: int = 160, spacing: float = 0.8) -> tuple[Part, Profile]:
     """A round plate (radius 40, 10 thick) with a cylinder boss (radius 15, 20 high) on top: the boss
     top edge rounded by 3 mm, its foot by 5 mm, the plate's edges sharp. Revolved about z."""
-    corners = [(0, 30), (15, 30), (15, 10), (40, 10), (40, 0), (0, 0)]
-    profile = filleted_profile(corners, [3.0, 5.0, 0.0, 0.0], spacing)
+    steps = [("line", 12), ("arc", 3, -90), ("line", 12), ("arc", 5, 90), ("line", 20), ("corner", -90),
+             ("line", 10), ("corner", -90), ("line", 40)]
+    profile = turtle_profile((0, 30), 0, steps, spacing)
     return revolve(profile, segments), profile

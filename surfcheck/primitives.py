@@ -27,7 +27,7 @@ from scipy.spatial import cKDTree
 from surfcheck.errors import InputError
 
 KINDS = ("plane", "cylinder", "sphere", "cone", "torus")
-_MAX_REFINE_POINTS = 1500  # refinement runs on a fixed random subset of large point sets
+_MAX_REFINE_POINTS = 800  # refinement runs on a fixed random subset of large point sets
 
 
 @dataclass(frozen=True, eq=False)
@@ -245,7 +245,7 @@ def _refine_axial(S, a0, c0, shape0, distance, free_centre: int):
         return np.hstack([d_a @ tilt, d_c @ move, d_shape])
 
     x0 = np.concatenate([[0.0, 0.0], np.zeros(k), shape0])
-    res = least_squares(residual, x0, jac=jacobian, method="lm", max_nfev=100)
+    res = least_squares(residual, x0, jac=jacobian, method="lm", max_nfev=60)
     a, c, shape, _ = unpack(res.x)
     return a, c, shape, float(np.sqrt(np.mean(res.fun**2)))
 

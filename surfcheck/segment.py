@@ -31,7 +31,7 @@ from scipy.spatial import cKDTree
 
 from surfcheck.errors import InputError
 from surfcheck.fillets import FilletRadius, measure_fillet
-from surfcheck.local_shape import LocalShape, local_shape
+from surfcheck.differential import Curvature, noise_level, principal_curvatures
 from surfcheck.part import Part
 from surfcheck.primitives import KINDS, Primitive, fit_simplest
 
@@ -120,7 +120,7 @@ class _Mesh:
     centroids: np.ndarray
     normals: np.ndarray
     areas: np.ndarray
-    shape: LocalShape
+    shape: Curvature
     noise: float
     normal_noise: float
 
@@ -182,10 +182,13 @@ def _prepare(part: Part, scale: float | None, noise: float | None) -> _Mesh:
     rho = SCALE_EDGES * h if scale is None else float(scale)
     if not rho > 0:
         raise InputError(f"the neighbourhood scale must be positive; got {scale}")
-    shape = local_shape(part.vertices, part.faces, rho)
-    floor = 1e-6 * part.diagonal
-    sigma = max(float(np.median(shape.rms)) if noise is None else float(noise), floor)
-    normal_noise = max(sigma * float(np.median(shape.slope_sd)), np.radians(0.05))
+    shape = principal_curvatures(part.vertices, part.faces, radius=rho)
+    sigma = noise_level(part.vertices, part.faces) if noise is None else float(noise)
+    sigma = max(sigma, 1e-6 * part.diagonal)
+    # least-squares slope of N points spread evenly over a disc of radius rho: sd 2 sigma / (rho sqrt N)
+    # per tangent direction, so the normal's angle has sd about 2 sqrt(2) sigma / (rho sqrt N)
+    count = float(np.median(shape.neighbours[shape.neighbours > 0])) if (shape.neighbours > 0).any() else 1.0
+    normal_noise = max(2.0 * np.sqrt(2.0) * sigma / (rho * np.sqrt(count)), np.radians(0.05))
     F = part.faces
     normals = shape.normals[F].sum(axis=1)
     normals /= np.maximum(np.linalg.norm(normals, axis=1, keepdims=True), 1e-300)
@@ -262,10 +265,8 @@ def _grow_regions(mesh: _Mesh, min_faces: int, rho: float) -> tuple[np.ndarray, 
     m = len(mesh.F)
     label = -np.ones(m, dtype=np.int64)
     tried = np.zeros(m, dtype=bool)
-    flatness = (np.abs(mesh.shape.k1) + np.abs(mesh.shape.k2))[mesh.F].mean(axis=1)
-    rough = mesh.shape.rms[mesh.F].max(axis=1) > 2.0 * mesh.noise
+    flatness = np.nan_to_num((np.abs(mesh.shape.k1) + np.abs(mesh.shape.k2))[mesh.F].mean(axis=1), nan=np.inf)
     order = np.argsort(flatness, kind="stable")
-    order = order[~rough[order]]
     tree = cKDTree(mesh.centroids)
     models: list[Primitive] = []
     attempts = 0

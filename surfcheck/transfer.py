@@ -55,13 +55,15 @@ class Alignment:
 
 
 def _moments(part: Part) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Area-weighted centroid, principal axes (columns, largest first) and their variances."""
+    """Area-weighted centroid, principal axes (right-handed columns, largest first), variances."""
     w = part.face_areas / part.face_areas.sum()
     c = part.vertices[part.faces].mean(axis=1)
     mean = w @ c
     d = c - mean
     values, axes = np.linalg.eigh((d * w[:, None]).T @ d)
-    return mean, axes[:, ::-1], values[::-1]
+    axes = axes[:, ::-1]
+    axes[:, 2] *= np.sign(np.linalg.det(axes))  # right-handed, so axis maps stay proper rotations
+    return mean, axes, values[::-1]
 
 
 def _proper_axis_maps() -> list[np.ndarray]:
@@ -131,8 +133,6 @@ def align(scan: Part, nominal: Part, max_iterations: int = 60) -> Alignment:
     best = None
     for M in _proper_axis_maps():
         R = axes_n @ M @ axes_s.T
-        if np.linalg.det(R) < 0:
-            continue
         start = np.eye(4)
         start[:3, :3] = R
         start[:3, 3] = mn - R @ ms

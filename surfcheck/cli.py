@@ -2,11 +2,21 @@
 
 from __future__ import annotations
 
+import json
+import os
 import sys
+from pathlib import Path
+from typing import Optional
 
+import numpy as np
 import typer
+from rich.console import Console
+from rich.table import Table
 
-from surfcheck.errors import SurfcheckError
+from surfcheck.errors import InputError, SurfcheckError
+from surfcheck.io import read_part
+from surfcheck.seams import SeamIndex
+from surfcheck.summary import part_summary
 
 app = typer.Typer(
     name="surfcheck",
@@ -15,12 +25,208 @@ app = typer.Typer(
     add_completion=False,
     pretty_exceptions_enable=False,
 )
+console = Console(highlight=False, width=None if sys.stdout.isatty() else 140)
+
+PART_ARG = typer.Argument(..., help="Mesh file: .stl (ASCII or binary), .obj (g/o groups) or .ply.")
+UNITS_OPT = typer.Option("mm", "--units", help="Length unit of the file's coordinates.")
+JSON_OPT = typer.Option(False, "--json", help="Print one JSON document to stdout and nothing else.")
+
+
+def print_json(document: dict) -> None:
+    """One JSON document on stdout."""
+    sys.stdout.write(json.dumps(document, indent=2, allow_nan=False) + "\n")
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.4g}"
+
+
+def _point(p: list[float]) -> str:
+    return " ".join(f"{x:.2f}" for x in p)
+
+
+def _groups(names: list[str]) -> str:
+    return " | ".join(names) if len(names) <= 2 else f"{len(names)} groups"
+
+
+@app.command()
+def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT) -> None:
+    """Size, groups, boundaries, edge lengths and defects of a part."""
+    loaded = read_part(part, units=units)
+    summary = part_summary(loaded)
+    if as_json:
+        print_json(summary)
+        return
+    u = summary["units"]
+    box = summary["bounding_box"]
+    console.print(f"[bold]{summary['source']}[/bold]  {summary['vertices']} vertices, {summary['faces']} triangles,"
+              f" units {u}, {summary['merged_vertices']} duplicate vertices welded")
+    console.print(f"box {[_fmt(x) for x in box['min']]} .. {[_fmt(x) for x in box['max']]}"
+              f"  diagonal {_fmt(box['diagonal'])} {u}, area {_fmt(summary['area'])} {u}^2")
+    e = summary["edge_length"]
+    console.print(f"edge length min {_fmt(e['min'])}, median {_fmt(e['median'])}, mean {_fmt(e['mean'])},"
+              f" max {_fmt(e['max'])} {u}")
+    table = Table("group", "triangles", f"area [{u}^2]", title="face groups")
+    for g in summary["groups"]:
+        table.add_row(g["name"], str(g["faces"]), _fmt(g["area"]))
+    console.print(table)
+    d = summary["defects"]
+    console.print(f"components {d['components']}, boundary loops {summary['boundary_loops']}"
+              f" ({d['boundary_edges']} boundary edges), group seams {summary['group_seams']},"
+              f" misoriented edges {d['misoriented_edges']}")
+    for warning in summary["warnings"]:
+        console.print(f"[yellow]warning:[/yellow] {warning}")
+
+
+@app.command()
+def loops(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT) -> None:
+    """Every boundary loop, boundary chain and group seam, with the ids other commands take."""
+    index = SeamIndex(read_part(part, units=units).part)
+    document = {
+        "loops": [c.to_dict() for c in index.loops],
+        "chains": [c.to_dict() for c in index.chains],
+        "seams": [c.to_dict() for c in index.seams],
+    }
+    if as_json:
+        print_json(document)
+        return
+    table = Table("id", f"length [{units}]", "vertices", "closed", "groups", "start", "end",
+                  title=f"loops, chains and seams of {part}")
+    for column in table.columns:
+        column.no_wrap = True
+    for kind in ("loops", "chains", "seams"):
+        for item in document[kind]:
+            table.add_row(item["id"], _fmt(item["length"]), str(item["vertices"]), "yes" if item["closed"] else "no",
+                          _groups(item["groups"]), _point(item["start"]), _point(item["end"]))
+    console.print(table)
+
+
+def _order_cell(order: dict) -> str:
+    if order["value"] is None:
+        return "[dim]no data[/dim]"
+    colour = {"ok": "green", "fail": "red"}.get(order["status"], "yellow")
+    text = f"{order['value']:.3g} ± {order['uncertainty']:.2g} / {order['tolerance']:.3g}"
+    return f"{text} [{colour}]{order['status']}[/{colour}]"
+
+
+def print_grades(document: dict) -> None:
+    """The grade table: one row per seam, each order as value ± uncertainty / tolerance and status."""
+    u = document["units"]
+    table = Table("seam", "groups", f"length [{u}]", "stations", f"G0 gap [{u}]", "G1 angle [deg]",
+                  f"G2 jump [1/{u}]", f"G3 jump [1/{u}^2]", "achieved",
+                  title=f"continuity of {document['part']['source']} (tolerance profile {document['tolerance']['name']})")
+    for seam in document["seams"]:
+        achieved = seam["achieved"]
+        limit = seam["limited_by"]
+        why = f" ({limit['order']} {limit['status']})" if limit else ""
+        table.add_row(seam["id"], " | ".join(seam["groups"]), _fmt(seam["length"]), str(seam["stations"]),
+                      *(_order_cell(seam["orders"][k]) for k in ("G0", "G1", "G2", "G3")),
+                      ("G" + str(achieved) if achieved >= 0 else "none") + why)
+    console.print(table)
+    console.print("values: governing station's value ± standard uncertainty / tolerance; the decision uses"
+                  f" the expanded uncertainty (k = {document['tolerance']['coverage']:g})")
+    if document["require"]:
+        colour = "green" if document["verdict"] == "pass" else "red"
+        console.print(f"requirement {document['require']}: [{colour}]{document['verdict']}[/{colour}]")
+    console.print(f"[dim]{document['caution']}[/dim]")
+
+
+@app.command()
+def grade(
+    part: Path = PART_ARG,
+    seam: list[str] = typer.Option(..., "--seam", help="GROUP_A:GROUP_B, an id from `surfcheck loops`, or `all`. Repeatable."),
+    tolerance: str = typer.Option("general", "--tolerance", help="Profile name (styling, general, scan) or a .toml file."),
+    require: Optional[str] = typer.Option(None, "--require", help="G0, G1, G2 or G3: exit 1 if a seam falls short."),
+    stations: Optional[int] = typer.Option(None, "--stations", min=3, help="Stations per seam (default from its length)."),
+    spacing: Optional[float] = typer.Option(None, "--spacing", help="Distance between stations, in part units."),
+    units: str = UNITS_OPT,
+    as_json: bool = JSON_OPT,
+) -> None:
+    """Grade G0..G3 continuity across seams, with uncertainty, against a tolerance profile."""
+    from surfcheck.continuity import grade_seam
+    from surfcheck.results import grade_document, parse_requirement
+    from surfcheck.tolerances import load_profile
+
+    required = parse_requirement(require)
+    profile = load_profile(tolerance)
+    loaded = read_part(part, units=units)
+    index = SeamIndex(loaded.part)
+    chosen = {}
+    for spec in seam:
+        for curve in index.find(spec):
+            if curve.kind != "seam":
+                raise InputError(f"{part}: {curve.id} is a boundary {curve.kind}, not a seam between two groups")
+            chosen.setdefault(curve.id, curve)
+    grades = []
+    for curve in _progress(list(chosen.values()), "grading seams", quiet=as_json):
+        grades.append(grade_seam(loaded.part, curve, profile.in_units(loaded.part.units), stations, spacing))
+    document = grade_document(loaded.part, grades, profile, required,
+                              {"stations": stations, "spacing": spacing, "seams": list(seam)})
+    if as_json:
+        print_json(document)
+    else:
+        print_grades(document)
+    raise typer.Exit(1 if document["verdict"] == "fail" else 0)
+
+
+def _progress(items: list, what: str, quiet: bool):
+    """Items, with a progress bar on a terminal's stderr unless quiet."""
+    from rich.progress import track
+
+    if quiet or not sys.stderr.isatty() or len(items) < 2:
+        return items
+    return track(items, description=what, console=Console(stderr=True), transient=True)
+
+
+@app.command("map")
+def map_field(
+    part: Path = PART_ARG,
+    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean or gaussian."),
+    out_file: Path = typer.Option(..., "--out", help="Output: .ply (vertex property), .csv or .png (heatmap)."),
+    units: str = UNITS_OPT,
+) -> None:
+    """Write a per-vertex field of a part as PLY, CSV or a PNG heatmap."""
+    from surfcheck.fields import vertex_field
+    from surfcheck.io import save_vertex_field
+
+    suffix = out_file.suffix.lower()
+    if suffix not in (".ply", ".csv", ".png"):
+        raise InputError(f"{out_file}: give --out a .ply, .csv or .png name")
+    loaded = read_part(part, units=units)
+    field = vertex_field(loaded.part, quantity)
+    if suffix == ".png":
+        from surfcheck.render import render_field
+
+        render_field(loaded.part.vertices, loaded.part.faces, field.values, out_file, quantity=quantity,
+                     unit=field.unit, signed=field.signed, title=f"{field.description}: {part.name}")
+    else:
+        save_vertex_field(loaded.part, field.values, quantity, out_file)
+    finite = field.values[np.isfinite(field.values)]
+    console.print(f"{quantity} [{field.unit}]: median {np.median(finite):.4g}, 2nd-98th percentile"
+                  f" {np.percentile(finite, 2):.4g} .. {np.percentile(finite, 98):.4g}; written to {out_file}")
+
+
+@app.command()
+def demo(out: Path = typer.Option(Path("surfcheck-demo"), "--out", help="Folder for the sample parts and results.")) -> None:
+    """Build the sample parts of the demo scenario and run every command on them."""
+    from surfcheck.demo import run_demo
+
+    if out.exists() and not out.is_dir():
+        raise InputError(f"{out}: exists and is not a folder; give another --out")
+    run_demo(out, say=console.print)
+    console.print(f"results in {out}/")
 
 
 def main() -> None:
     """Entry point: every SurfcheckError becomes `error: ...` on stderr and exit code 2."""
     try:
-        app(standalone_mode=False)
+        app()  # usage errors print usage and exit 2 here; commands end by typer.Exit(code)
     except SurfcheckError as exc:
         print(f"error: {exc}", file=sys.stderr)
+        sys.exit(2)
+    except Exception as exc:  # a defect of ours: still one line, unless asked for the trace
+        if os.environ.get("SURFCHECK_DEBUG"):
+            raise
+        print(f"error: internal error ({type(exc).__name__}: {exc}); rerun with SURFCHECK_DEBUG=1 and report it",
+              file=sys.stderr)
         sys.exit(2)

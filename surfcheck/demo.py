@@ -1,0 +1,165 @@
+"""The demo scenario: the top shell of the "WT-20", a hand-held water tester of our own invention.
+
+Its cross-section is molded as one profile and extruded along the shell's length. Each joint of the
+profile is made to a known continuity class, so the demo shows every grade:
+
+- flange -> side-wall: a sharp inside corner (G0 only);
+- side-wall -> edge-fillet -> top: a circular fillet of radius 4 mm (G1: curvature jumps to 1/4);
+- top -> front-blend -> front-wall: entry spiral, arc, exit spiral (clothoids; G2);
+- front-wall -> lip-blend -> underside: smooth-step curvature ramps into an arc (G3).
+
+The files: the part as OBJ with groups, as binary STL, as PLY with a group property, and a "scanned"
+copy (moved to a scanner's frame, normal noise of 0.01 mm, no groups). Regenerate sample_meshes/ with
+`python -m surfcheck.demo sample_meshes`.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import numpy as np
+from scipy.spatial.transform import Rotation
+
+from surfcheck.continuity import grade_seam
+from surfcheck.io import read_part, save_part, write_atomic
+from surfcheck.part import Part
+from surfcheck.seams import SeamIndex
+from surfcheck.shapes import Profile, add_normal_noise, arc, clothoid, corner, extrude, line, ramp
+from surfcheck.results import CAUTION, grade_document
+from surfcheck.summary import part_summary
+from surfcheck.tolerances import load_profile
+
+FILLET_RADIUS = 4.0  # mm
+BLEND_SPIRAL = 3.0  # mm of curvature ramp at each end of the G2 and G3 blends
+DEPTH = 24.0  # mm of extrusion
+EDGE = 0.5  # mm, mesh edge length
+SCAN_NOISE = 0.01  # mm, standard deviation along the normal (a structured-light scanner's order)
+SCAN_MOTION = (Rotation.from_euler("xyz", [12.0, -7.0, 31.0], degrees=True).as_matrix(), np.array([41.0, -13.0, 6.5]))
+
+# Piece name -> face group: the spirals and arc of a blend form one blend group.
+GROUP_OF_PIECE = {
+    "flange": "flange", "side-wall": "side-wall", "edge-fillet": "edge-fillet", "top": "top",
+    "front-blend-in": "front-blend", "front-blend-arc": "front-blend", "front-blend-out": "front-blend",
+    "front-wall": "front-wall",
+    "lip-blend-in": "lip-blend", "lip-blend-arc": "lip-blend", "lip-blend-out": "lip-blend",
+    "underside": "underside",
+}
+
+# The class each seam is built to: the highest k with G0..Gk continuity.
+DESIGNED = {
+    ("flange", "side-wall"): 0,
+    ("side-wall", "edge-fillet"): 1, ("edge-fillet", "top"): 1,
+    ("top", "front-blend"): 2, ("front-blend", "front-wall"): 2,
+    ("front-wall", "lip-blend"): 3, ("lip-blend", "underside"): 3,
+}
+
+
+def housing_profile() -> Profile:
+    """The shell's cross-section, traversed with the inside on the left (outward normal on the right)."""
+    k = 1.0 / FILLET_RADIUS
+    spiral_turn = np.degrees(k * BLEND_SPIRAL / 2.0)  # a clothoid or symmetric ramp from 0 to k turns k L / 2
+    blend_arc = 90.0 - 2.0 * spiral_turn
+    return Profile(
+        (
+            line(12.0, "flange"),
+            corner(-90.0),
+            line(14.0, "side-wall"),
+            arc(FILLET_RADIUS, "edge-fillet", angle_deg=90.0),
+            line(30.0, "top"),
+            clothoid(BLEND_SPIRAL, 0.0, k, "front-blend-in"),
+            arc(FILLET_RADIUS, "front-blend-arc", angle_deg=blend_arc),
+            clothoid(BLEND_SPIRAL, k, 0.0, "front-blend-out"),
+            line(14.0, "front-wall"),
+            ramp(BLEND_SPIRAL, 0.0, k, "lip-blend-in"),
+            arc(FILLET_RADIUS, "lip-blend-arc", angle_deg=blend_arc),
+            ramp(BLEND_SPIRAL, k, 0.0, "lip-blend-out"),
+            line(10.0, "underside"),
+        ),
+        start=(24.0, 0.0),
+        heading_deg=180.0,
+    )
+
+
+def housing_part(source: str = "housing", edge: float = EDGE, skew: float = 0.0) -> Part:
+    """The nominal shell as a Part with its face groups."""
+    mesh = extrude(housing_profile(), DEPTH, edge, skew=skew)
+    names = list(dict.fromkeys(GROUP_OF_PIECE[n] for n in mesh.group_names))
+    regroup = np.array([names.index(GROUP_OF_PIECE[n]) for n in mesh.group_names])
+    return Part(mesh.vertices, mesh.faces, regroup[mesh.face_group], tuple(names), "mm", source)
+
+
+def scanned_part() -> Part:
+    """The shell as a scanner would deliver it: its own staggered triangulation, in the scanner's
+    frame, with normal noise, without groups."""
+    sampled = housing_part(edge=0.9 * EDGE, skew=0.3)
+    rotation, shift = SCAN_MOTION
+    noisy = add_normal_noise(sampled.vertices, sampled.faces, SCAN_NOISE, seed=20)
+    moved = noisy @ rotation.T + shift
+    return Part(moved, sampled.faces, np.zeros(sampled.n_faces, dtype=np.int64), ("scan",), "mm", "housing-scan")
+
+
+def write_samples(folder: str | Path) -> dict[str, Path]:
+    """Write the sample files; returns name -> path."""
+    folder = Path(folder)
+    nominal = housing_part()
+    files = {
+        "housing.obj": nominal,
+        "housing.stl": nominal,
+        "housing.ply": nominal,
+        "housing-scan.stl": scanned_part(),
+    }
+    return {name: save_part(part, folder / name) for name, part in files.items()}
+
+
+def run_demo(out: str | Path, say=print) -> dict:
+    """Build the samples in ``out``/samples and run every capability on them, writing results to ``out``."""
+    out = Path(out)
+    samples = write_samples(out / "samples")
+    results: dict = {"samples": {name: str(path) for name, path in samples.items()}, "inspect": {}, "loops": {},
+                     "grades": {}}
+    for name, path in samples.items():
+        stem = f"{Path(name).stem}-{Path(name).suffix[1:]}"
+        loaded = read_part(path)
+        summary = part_summary(loaded)
+        index = SeamIndex(loaded.part)
+        results["inspect"][name] = summary
+        results["loops"][name] = {"loops": len(index.loops), "chains": len(index.chains), "seams": len(index.seams)}
+        say(f"{name}: {summary['vertices']} vertices, {summary['faces']} triangles, {len(summary['groups'])} groups,"
+            f" {len(index.seams)} seams, {len(index.chains)} boundary chains")
+        _write_json(out / f"{stem}-inspect.json", summary)
+        if index.seams:
+            document = grade_all(loaded.part, index)
+            _write_json(out / f"{stem}-grades.json", document)
+            results["grades"][name] = {"/".join(s["groups"]): s["achieved"] for s in document["seams"]}
+            for seam in document["seams"]:
+                say(_seam_line(seam))
+    _write_json(out / "demo.json", results)
+    say(CAUTION)
+    return results
+
+
+def _seam_line(seam: dict) -> str:
+    """One line per graded seam: what it achieved, what stopped it, what it was built as."""
+    achieved = f"G{seam['achieved']}" if seam["achieved"] >= 0 else "none"
+    limit = seam["limited_by"]
+    why = f", {limit['order']} {limit['status']}" if limit else ""
+    designed = DESIGNED.get(tuple(seam["groups"]))
+    return f"  {seam['id']} {' | '.join(seam['groups'])}: achieved {achieved}{why} (built as G{designed})"
+
+
+def grade_all(part: Part, index: SeamIndex, profile_name: str = "general") -> dict:
+    """Grade every group seam of a part with a named tolerance profile; the result document."""
+    profile = load_profile(profile_name).in_units(part.units)
+    grades = [grade_seam(part, seam, profile) for seam in index.seams]
+    return grade_document(part, grades, profile, None)
+
+
+def _write_json(path: Path, document: dict) -> None:
+    write_atomic(path, (json.dumps(document, indent=2) + "\n").encode())
+
+
+if __name__ == "__main__":
+    for written in write_samples(sys.argv[1] if len(sys.argv) > 1 else "sample_meshes").values():
+        print(written)

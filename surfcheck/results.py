@@ -1,0 +1,49 @@
+"""The grade result document: what `grade --json` prints and `report` writes as result.json."""
+
+from __future__ import annotations
+
+from surfcheck import __version__
+from surfcheck.continuity import ORDERS, SeamGrade
+from surfcheck.errors import InputError
+from surfcheck.part import Part
+from surfcheck.tolerances import ToleranceProfile
+
+CAUTION = (
+    "Continuity grades are geometric. Strength, stress concentration, fatigue life, sealing and safety"
+    " are not assessed: defer to the applicable codes, standards and licensed engineering practice."
+    " Grades of scanned parts are only as good as the scan."
+)
+
+
+def parse_requirement(text: str | None) -> int | None:
+    """`G0`..`G3` (any case) -> 0..3; None stays None."""
+    if text is None:
+        return None
+    name = text.strip().upper()
+    if name not in ORDERS:
+        raise InputError(f"--require {text!r}: use one of {', '.join(ORDERS)}")
+    return ORDERS.index(name)
+
+
+def verdict(grades: list[SeamGrade], required: int | None) -> str:
+    """"pass" when every seam achieves the requirement, "fail" when one does not, "no requirement"."""
+    if required is None:
+        return "no requirement"
+    return "pass" if all(g.achieved >= required for g in grades) else "fail"
+
+
+def grade_document(part: Part, grades: list[SeamGrade], profile: ToleranceProfile, required: int | None,
+                   parameters: dict | None = None) -> dict:
+    """The JSON-ready result of grading seams of a part (schema: docs/grade-result.md)."""
+    return {
+        "tool": {"name": "surfcheck", "version": __version__},
+        "part": {"source": part.source, "units": part.units, "vertices": part.n_vertices,
+                 "faces": part.n_faces, "groups": list(part.group_names)},
+        "units": part.units,
+        "tolerance": profile.to_dict(),
+        "require": None if required is None else ORDERS[required],
+        "verdict": verdict(grades, required),
+        "parameters": parameters or {},
+        "seams": [g.to_dict() for g in grades],
+        "caution": CAUTION,
+    }

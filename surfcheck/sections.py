@@ -1,0 +1,265 @@
+"""Sections across a seam: stations along it and, at each, both sides' data in the section plane.
+
+At a station the section plane is normal to the seam tangent T. Its frame is (x, y): y along the
+surface's outward normal N at the seam (area-weighted face normals there, made normal to T), x = N x T
+oriented from side A into side B. Instead of one plane cut, each side contributes the strip of its
+own vertices within ``strip`` of the station along the seam (tens of times more samples on a noisy
+scan). Each strip vertex is carried into the station's plane along the seam: it is projected onto a
+local polynomial fit of the seam curve (foot point and tangent), and its offset from the foot is
+rotated by the minimal rotation taking the foot's tangent to the station's. Along a straight seam
+this is the orthogonal projection; along a circular one (a revolved part) it is the exact rotation
+about the axis, so a strip of a surface of revolution lands on its meridian section.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.spatial import cKDTree
+
+from surfcheck.errors import InputError
+from surfcheck.part import Part
+from surfcheck.seams import Curve
+
+STRIP_EDGES = 6.0  # default half-width of the strip along the seam, in typical edge lengths
+REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
+MAX_STATIONS = 48  # default number of stations on a long seam
+_SEAM_FIT_DEGREE = 5
+
+
+@dataclass(frozen=True, eq=False)
+class Section:
+    """Both sides' data at one station, in the section frame (x from A into B, y along the normal).
+
+    ``side_a``/``side_b`` are (n, 2) section coordinates of the strip vertices ``ids_a``/``ids_b``;
+    ``end_a``/``end_b`` where each side's data meets the seam (the same point on a welded seam).
+    ``edge`` is the typical edge length near the seam.
+    """
+
+    index: int
+    s: float
+    origin: np.ndarray
+    tangent: np.ndarray
+    normal: np.ndarray
+    cross: np.ndarray
+    side_a: np.ndarray
+    side_b: np.ndarray
+    ids_a: np.ndarray
+    ids_b: np.ndarray
+    end_a: np.ndarray
+    end_b: np.ndarray
+    welded: bool
+    edge: float
+
+    def to_world(self, xy: np.ndarray) -> np.ndarray:
+        """3D positions of section coordinates (n, 2) or (2,)."""
+        xy = np.asarray(xy, dtype=float)
+        return self.origin + xy[..., :1] * self.cross + xy[..., 1:2] * self.normal
+
+
+def station_positions(length: float, closed: bool, count: int | None = None, spacing: float | None = None,
+                      default_spacing: float | None = None) -> np.ndarray:
+    """Arc lengths of the stations: ``count`` of them, or about ``spacing`` apart, else about
+    ``default_spacing`` apart with at most MAX_STATIONS. Open seams get stations at the centres of
+    equal intervals, closed seams at their starts."""
+    if count is not None and spacing is not None:
+        raise InputError("give either a station count or a station spacing, not both")
+    if count is not None:
+        if int(count) != count or count < 1:
+            raise InputError("the station count must be a positive integer")
+        n = int(count)
+    else:
+        step = spacing if spacing is not None else max(default_spacing or length, length / MAX_STATIONS)
+        if not step > 0:
+            raise InputError("the station spacing must be positive")
+        n = max(1, int(round(length / step)))
+    offset = 0.0 if closed else 0.5
+    return length * (np.arange(n) + offset) / n
+
+
+def side_vertices(part: Part, group: str) -> np.ndarray:
+    """Sorted indices of the vertices of the group's faces."""
+    return np.unique(part.faces[part.face_group == part.group_index(group)])
+
+
+def border_vertices(part: Part, group: str) -> np.ndarray:
+    """Vertices on the group's border: on an edge used by one face of the group and no other face of it
+    (a mesh boundary) or by faces of the group and of another group."""
+    in_group = (part.face_group == part.group_index(group)).astype(np.int64)
+    count_in = part.edge_faces @ in_group
+    border = (count_in >= 1) & ((count_in == 1) | (part.edge_face_count > count_in))
+    return np.unique(part.edges[border])
+
+
+def typical_edge_length(part: Part, vertices: np.ndarray) -> float:
+    """Median length of the edges that touch the given vertices."""
+    touch = np.isin(part.edges, vertices).any(axis=1)
+    lengths = part.edge_lengths[touch]
+    if len(lengths) == 0:
+        raise InputError("the seam's vertices have no edges")
+    return float(np.median(lengths))
+
+
+def cut_sections(
+    part: Part,
+    seam: Curve,
+    stations: int | None = None,
+    spacing: float | None = None,
+    strip: float | None = None,
+    reach: float | None = None,
+) -> list[Section]:
+    """Sections of the seam's two sides at stations along it (see the module docstring).
+
+    ``strip`` (half-width along the seam) and ``reach`` (distance from the seam in the section) default
+    to STRIP_EDGES and REACH_EDGES typical edge lengths. Stations where a side has no data are left out.
+    """
+    if len(seam.groups) != 2:
+        raise InputError(f"{seam.id}: a seam needs two groups, got {len(seam.groups)}")
+    if len(seam.points) < 2:
+        raise InputError(f"{seam.id}: a seam needs at least two points")
+    group_a, group_b = seam.groups
+    ids_a, ids_b = side_vertices(part, group_a), side_vertices(part, group_b)
+    if len(ids_a) == 0 or len(ids_b) == 0:
+        raise InputError(f"{seam.id}: group {group_a if len(ids_a) == 0 else group_b!r} has no faces")
+    h = typical_edge_length(part, seam.vertices)
+    strip = STRIP_EDGES * h if strip is None else float(strip)
+    reach = REACH_EDGES * h if reach is None else float(reach)
+    if not (np.isfinite(strip) and strip > 0 and np.isfinite(reach) and reach > 0):
+        raise InputError("the strip width and the reach must be positive lengths")
+    welded = bool(np.isin(seam.vertices, ids_b).mean() > 0.5)
+    polyline = _SeamPolyline(seam.points, seam.closed)
+    positions = station_positions(polyline.length, seam.closed, stations, spacing, 2.0 * strip)
+    V = part.vertices
+    trees = (cKDTree(V[ids_a]), cKDTree(V[ids_b]))
+    border_b = None if welded else border_vertices(part, group_b)
+    groups = (part.group_index(group_a), part.group_index(group_b))
+    sections = []
+    for index, s in enumerate(positions):
+        frame = polyline.local_fit(s, strip + 4.0 * h)
+        radius = np.hypot(reach, strip) * 1.05
+        mapped = []
+        for tree, ids in zip(trees, (ids_a, ids_b)):
+            near = ids[tree.query_ball_point(frame.origin, radius)]
+            coords, along = frame.carry(V[near])
+            inside = polyline.within(s, along, 0.5 * h) & (np.abs(along) <= strip)
+            mapped.append((near[inside], coords[inside]))
+        (near_a, rel_a), (near_b, rel_b) = mapped
+        if len(near_a) == 0 or len(near_b) == 0:
+            continue
+        normal = _seam_normal(part, np.concatenate([near_a, near_b]), frame, groups, 3.0 * h)
+        cross = np.cross(normal, frame.tangent)
+        xy_a = np.stack([rel_a @ cross, rel_a @ normal], axis=1)
+        xy_b = np.stack([rel_b @ cross, rel_b @ normal], axis=1)
+        if xy_b[:, 0].mean() < xy_a[:, 0].mean():
+            cross = -cross
+            xy_a[:, 0] *= -1
+            xy_b[:, 0] *= -1
+        keep_a = np.hypot(*xy_a.T) <= reach
+        keep_b = np.hypot(*xy_b.T) <= reach
+        end_a = np.zeros(2)
+        if welded:
+            end_b = end_a
+        else:
+            on_border = np.isin(near_b[keep_b], border_b)
+            if not on_border.any():
+                continue
+            pts = xy_b[keep_b][on_border]
+            dist = np.hypot(*pts.T)
+            end_b = pts[dist <= dist.min() + 0.5 * h].mean(axis=0)
+        sections.append(Section(index, float(s), frame.origin, frame.tangent, normal, cross,
+                                xy_a[keep_a], xy_b[keep_b], near_a[keep_a], near_b[keep_b],
+                                end_a, end_b, welded, h))
+    return sections
+
+
+@dataclass(frozen=True)
+class _SeamFrame:
+    """A local polynomial fit c(tau) of the seam around a station; tau in units of ``scale``."""
+
+    coef: np.ndarray  # (deg+1, 3) in tau / scale
+    scale: float
+    origin: np.ndarray
+    tangent: np.ndarray
+    span: tuple[float, float]
+
+    def _eval(self, tau: np.ndarray, derivative: int) -> np.ndarray:
+        c = np.polynomial.polynomial.polyder(self.coef, derivative) / self.scale**derivative if derivative else self.coef
+        return np.polynomial.polynomial.polyval(tau / self.scale, c).T
+
+    def carry(self, points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Points carried along the seam into the station's plane, relative to the origin (n, 3), and
+        their signed arc length from the station along the seam (n,)."""
+        tau = (points - self.origin) @ self.tangent
+        for _ in range(4):  # Newton on (c(tau) - p) . c'(tau) = 0: the foot point on the seam
+            c, d1, d2 = (self._eval(tau, k) for k in range(3))
+            gap = c - points
+            step = np.einsum("ij,ij->i", gap, d1) / (np.einsum("ij,ij->i", d1, d1) + np.einsum("ij,ij->i", gap, d2))
+            tau = np.clip(tau - step, *self.span)
+        foot = self._eval(tau, 0)
+        t = self._eval(tau, 1)
+        speed = np.linalg.norm(t, axis=1)
+        t = t / speed[:, None]
+        offset = points - foot
+        w = np.cross(t, self.tangent)
+        cw = np.cross(w, offset)
+        carried = offset + cw + np.cross(w, cw) / (1.0 + t @ self.tangent)[:, None]
+        return carried, tau * speed
+
+
+class _SeamPolyline:
+    """The seam's points with arc length, and local fits of the seam curve around a station."""
+
+    def __init__(self, points: np.ndarray, closed: bool) -> None:
+        self.points = np.asarray(points, dtype=float)
+        pts = np.vstack([self.points, self.points[:1]]) if closed else self.points
+        seg = np.linalg.norm(np.diff(pts, axis=0), axis=1)
+        self.arc = np.concatenate([[0.0], np.cumsum(seg)])
+        self.length = float(self.arc[-1])
+        self.closed = closed
+        if not self.length > 0:
+            raise InputError("the seam has zero length")
+
+    def local_fit(self, s: float, half_width: float) -> _SeamFrame:
+        arc = self.arc[: len(self.points)]
+        rel = arc - s
+        if self.closed:
+            rel = (rel + 0.5 * self.length) % self.length - 0.5 * self.length
+        near = np.abs(rel) <= half_width
+        if near.sum() < 3:
+            near = np.argsort(np.abs(rel))[: min(3, len(rel))]
+        pts, rel = self.points[near], rel[near]
+        order = np.argsort(rel)
+        pts, rel = pts[order], rel[order]
+        degree = int(min(_SEAM_FIT_DEGREE, len(rel) - 1))
+        scale = max(float(np.abs(rel).max()), 1e-300)
+        coef = np.polynomial.polynomial.polyfit(rel / scale, pts, degree)
+        origin = np.polynomial.polynomial.polyval(0.0, coef)
+        tangent = coef[1] / np.linalg.norm(coef[1])
+        return _SeamFrame(coef, scale, origin, tangent, (float(rel[0]), float(rel[-1])))
+
+    def within(self, s: float, along: np.ndarray, margin: float) -> np.ndarray:
+        """Which points, at arc length ``along`` from the station at s, lie beside the seam (an open
+        seam ends; data beyond its ends, within ``margin``, belongs to something else)."""
+        if self.closed:
+            return np.ones(len(along), dtype=bool)
+        return (s + along >= -margin) & (s + along <= self.length + margin)
+
+
+def _seam_normal(part: Part, vertices: np.ndarray, frame: _SeamFrame, groups: tuple[int, int], radius: float) -> np.ndarray:
+    """Unit outward normal at the station: area-weighted normals of the two sides' faces within
+    ``radius`` of it, made normal to the seam tangent."""
+    V = part.vertices
+    close = vertices[np.linalg.norm(V[vertices] - frame.origin, axis=1) <= radius]
+    if len(close) == 0:
+        close = vertices[np.argsort(np.linalg.norm(V[vertices] - frame.origin, axis=1))[:8]]
+    faces = np.unique(part.vertex_faces[close].indices)
+    faces = faces[np.isin(part.face_group[faces], groups)]
+    a, b, c = (V[part.faces[faces, k]] for k in range(3))
+    n = np.cross(b - a, c - a).sum(axis=0)
+    n -= (n @ frame.tangent) * frame.tangent
+    norm = np.linalg.norm(n)
+    if not norm > 0:
+        raise InputError("cannot find the surface normal at a seam station (degenerate faces?)")
+    return n / norm
+

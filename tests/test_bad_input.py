@@ -1,0 +1,121 @@
+"""Bad input: a one-line error on stderr, exit code 2, no traceback, the file unchanged."""
+
+from __future__ import annotations
+
+import hashlib
+import struct
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+import trimesh
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from surfcheck import InputError
+from surfcheck.io import load_part
+
+
+def run_cli(*args: str) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "surfcheck", *args], capture_output=True, text=True, timeout=120)
+
+
+def digest(path: Path) -> str | None:
+    return hashlib.sha256(path.read_bytes()).hexdigest() if path.is_file() else None
+
+
+def _cube_stl_bytes() -> bytes:
+    box = trimesh.creation.box()
+    return trimesh.exchange.stl.export_stl(box)
+
+
+def _bad_files(tmp: Path) -> dict[str, Path]:
+    files = {}
+    files["empty"] = tmp / "empty.stl"
+    files["empty"].write_bytes(b"")
+    stl = _cube_stl_bytes()
+    files["truncated"] = tmp / "truncated.stl"
+    files["truncated"].write_bytes(stl[: len(stl) - 37])  # binary STL: 84 + 50 n bytes, now short
+    files["garbage"] = tmp / "garbage.stl"
+    files["garbage"].write_bytes(np.random.default_rng(1).integers(0, 256, 3000, dtype=np.uint8).tobytes())
+    files["huge_ply"] = tmp / "huge.ply"
+    files["huge_ply"].write_bytes(
+        b"ply\nformat binary_little_endian 1.0\nelement vertex 3\nproperty float x\nproperty float y\n"
+        b"property float z\nelement face 1000000000000\nproperty list uchar int vertex_indices\nend_header\n"
+        + struct.pack("<9f", 0, 0, 0, 1, 0, 0, 0, 1, 0))
+    files["nan"] = tmp / "nan.obj"
+    files["nan"].write_text("v 0 0 0\nv nan 0 0\nv 0 1 0\nf 1 2 3\n")
+    files["non_manifold"] = tmp / "fin.obj"
+    files["non_manifold"].write_text("v 0 0 0\nv 1 0 0\nv 0 1 0\nv 0 -1 0\nv 0 0 1\nf 1 2 3\nf 2 1 4\nf 1 2 5\n")
+    files["no_faces"] = tmp / "points.obj"
+    files["no_faces"].write_text("v 0 0 0\nv 1 0 0\n")
+    files["unknown_ext"] = tmp / "part.step"
+    files["unknown_ext"].write_text("ISO-10303-21;\n")
+    files["folder"] = tmp / "a_folder.stl"
+    files["folder"].mkdir()
+    files["missing"] = tmp / "does_not_exist.obj"
+    return files
+
+
+BAD = ["empty", "truncated", "garbage", "huge_ply", "nan", "non_manifold", "no_faces", "unknown_ext",
+       "folder", "missing"]
+
+
+@pytest.mark.parametrize("command", ["inspect", "loops"])
+def test_bad_inputs_exit_2_with_one_line(tmp_path, command):
+    files = _bad_files(tmp_path)
+    for key in BAD:
+        path = files[key]
+        before = digest(path)
+        result = run_cli(command, str(path))
+        assert result.returncode == 2, (key, result.stderr)
+        lines = result.stderr.strip().splitlines()
+        assert len(lines) == 1 and lines[0].startswith("error: "), (key, result.stderr)
+        assert "Traceback" not in result.stderr + result.stdout
+        assert str(path) in lines[0], key
+        assert digest(path) == before, key
+
+
+def test_huge_ply_header_fails_fast_without_allocating(tmp_path):
+    path = _bad_files(tmp_path)["huge_ply"]
+    with pytest.raises(InputError, match="truncated or corrupt"):
+        load_part(path)
+
+
+def test_unknown_option_is_a_usage_error():
+    assert run_cli("inspect", "--no-such-option", "x.stl").returncode == 2
+
+
+_SEEDS = {
+    "obj": b"v 0 0 0\nv 1 0 0\nv 1 1 0\nv 0 1 0\ng a\nf 1 2 3\ng b\nf 1 3 4\n",
+    "stl": None,  # filled lazily (binary STL of a cube)
+    "ply": b"ply\nformat ascii 1.0\nelement vertex 3\nproperty float x\nproperty float y\nproperty float z\n"
+           b"element face 1\nproperty list uchar int vertex_indices\nproperty int group\nend_header\n"
+           b"0 0 0\n1 0 0\n0 1 0\n3 0 1 2 4\n",
+}
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(kind=st.sampled_from(["obj", "stl", "ply"]), data=st.data())
+def test_fuzzed_files_load_or_raise_input_error(tmp_path, kind, data):
+    seed = _SEEDS[kind] if _SEEDS[kind] is not None else _cube_stl_bytes()
+    blob = bytearray(seed)
+    for _ in range(data.draw(st.integers(1, 8))):
+        action = data.draw(st.sampled_from(["flip", "cut", "insert"]))
+        at = data.draw(st.integers(0, max(len(blob) - 1, 0)))
+        if action == "flip" and blob:
+            blob[at] = data.draw(st.integers(0, 255))
+        elif action == "cut":
+            del blob[at:at + data.draw(st.integers(1, 64))]
+        else:
+            blob[at:at] = data.draw(st.binary(min_size=1, max_size=16))
+    path = tmp_path / f"fuzz.{kind}"
+    path.write_bytes(bytes(blob))
+    try:
+        part = load_part(path)
+    except InputError as exc:
+        assert "\n" not in str(exc)
+    else:
+        assert np.isfinite(part.vertices).all() and part.n_faces > 0

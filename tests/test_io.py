@@ -1,0 +1,162 @@
+"""Loaders and writers against files written by hand to the published format descriptions and
+against trimesh and meshio as reference writers."""
+
+from __future__ import annotations
+
+import struct
+
+import meshio
+import numpy as np
+import pytest
+import trimesh
+
+from surfcheck import InputError
+from surfcheck.io import load_part, read_part, save_part
+
+# Unit cube as 12 outward triangles.
+_box = trimesh.creation.box(bounds=[[0, 0, 0], [1, 1, 1]])
+CUBE_V, CUBE_F = np.asarray(_box.vertices, dtype=float), np.asarray(_box.faces)
+
+
+def binary_stl(triangles: np.ndarray) -> bytes:
+    """Binary STL as published: 80-byte header, uint32 little-endian count, then per triangle
+    12 float32 (normal, three corners) and a uint16 attribute count: 50 bytes a triangle."""
+    out = b"hand-written binary STL".ljust(80, b"\0") + struct.pack("<I", len(triangles))
+    for tri in triangles:
+        normal = np.cross(tri[1] - tri[0], tri[2] - tri[0])
+        out += struct.pack("<12fH", *normal, *tri.reshape(-1), 0)
+    return out
+
+
+def ascii_stl(triangles: np.ndarray) -> str:
+    """ASCII STL: solid / facet normal / outer loop / vertex x3 / endloop / endfacet / endsolid."""
+    lines = ["solid cube"]
+    for tri in triangles:
+        lines += ["facet normal 0 0 0", "outer loop", *[f"vertex {x} {y} {z}" for x, y, z in tri],
+                  "endloop", "endfacet"]
+    return "\n".join(lines + ["endsolid cube"]) + "\n"
+
+
+def euler_characteristic(part) -> int:
+    return part.n_vertices - len(part.edges) + part.n_faces
+
+
+@pytest.mark.parametrize("kind", ["binary", "ascii"])
+def test_stl_cube_welds_to_closed_cube(tmp_path, kind):
+    path = tmp_path / "cube.stl"
+    triangles = CUBE_V[CUBE_F]
+    if kind == "binary":
+        path.write_bytes(binary_stl(triangles))
+        assert path.stat().st_size == 84 + 50 * 12  # binary STL size rule (80 + 4 + 50 n)
+    else:
+        path.write_text(ascii_stl(triangles))
+    loaded = read_part(path)
+    part = loaded.part
+    assert (part.n_vertices, part.n_faces) == (8, 12)
+    assert loaded.merged_vertices == 36 - 8
+    assert part.face_components.max() == 0  # one component
+    assert (part.edge_face_count == 2).all()  # closed: no boundary edge
+    assert euler_characteristic(part) == 2  # Euler: V - E + F = 2 for a sphere-like polyhedron
+
+
+def test_obj_groups_one_based_negative_indices_and_polygons(tmp_path):
+    # OBJ records: `v x y z`, `f` with 1-based or negative (relative) indices, `v/vt/vn` forms,
+    # `g name` opens a group; a quad is two triangles.
+    text = "\n".join([
+        "# two groups on a shared edge",
+        "v 0 0 0", "v 1 0 0", "v 1 1 0", "v 0 1 0",
+        "vt 0 0", "vn 0 0 1",
+        "g floor",
+        "f 1/1/1 2/1/1 3/1/1 4/1/1",
+        "v 2 0 0", "v 2 1 0",
+        "g ramp",
+        "f -4 -2 -1",
+        "f 2//1 6//1 3//1",
+    ])
+    path = tmp_path / "two.obj"
+    path.write_text(text)
+    part = load_part(path)
+    assert part.group_names == ("floor", "ramp")
+    assert part.n_faces == 4 and part.n_vertices == 6
+    assert list(part.face_group) == [0, 0, 1, 1]
+    # -1 is the last vertex defined so far (index 5), -4 the third (index 2).
+    assert [tuple(map(int, f)) for f in part.faces[2:]] == [(2, 4, 5), (1, 5, 2)]
+
+
+def test_ply_ascii_and_binary_group_property(tmp_path):
+    # PLY header grammar: `ply`, `format ...`, `element NAME COUNT`, `property TYPE NAME`,
+    # `property list COUNT_TYPE ITEM_TYPE NAME`, `end_header`.
+    header = ["ply", "format ascii 1.0", "element vertex 4", "property float x", "property float y",
+              "property float z", "element face 2", "property list uchar int vertex_indices",
+              "property int label", "end_header"]
+    body = ["0 0 0", "1 0 0", "1 1 0", "0 1 0", "3 0 1 2 7", "3 0 2 3 9"]
+    (tmp_path / "a.ply").write_text("\n".join(header + body) + "\n")
+    part = load_part(tmp_path / "a.ply")
+    assert part.group_names == ("group-7", "group-9") and list(part.face_group) == [0, 1]
+
+    binary = "\n".join(["ply", "format binary_little_endian 1.0", "element vertex 4",
+                        "property float x", "property float y", "property float z", "element face 2",
+                        "property list uchar int vertex_indices", "property uchar group", "end_header"]) + "\n"
+    data = binary.encode() + struct.pack("<12f", 0, 0, 0, 1, 0, 0, 1, 1, 0, 0, 1, 0)
+    data += struct.pack("<B3iB", 3, 0, 1, 2, 4) + struct.pack("<B3iB", 3, 0, 2, 3, 5)
+    (tmp_path / "b.ply").write_bytes(data)
+    part = load_part(tmp_path / "b.ply")
+    assert part.n_faces == 2 and part.group_names == ("group-4", "group-5")
+
+
+@pytest.mark.parametrize("suffix", [".stl", ".ply", ".obj"])
+def test_trimesh_written_files_read_back(tmp_path, suffix):
+    mesh = trimesh.creation.icosphere(subdivisions=2, radius=3.0)
+    path = tmp_path / f"sphere{suffix}"
+    mesh.export(path)  # trimesh as reference writer
+    part = load_part(path)
+    assert part.n_faces == len(mesh.faces)
+    assert part.n_vertices == len(mesh.vertices)
+    np.testing.assert_allclose(np.linalg.norm(part.vertices, axis=1), 3.0, rtol=1e-6)
+
+
+@pytest.mark.parametrize("suffix", [".stl", ".ply", ".obj"])
+def test_meshio_written_files_read_back(tmp_path, suffix):
+    mesh = trimesh.creation.icosphere(subdivisions=2, radius=2.0)
+    path = tmp_path / f"sphere{suffix}"
+    meshio.write(path, meshio.Mesh(mesh.vertices, [("triangle", mesh.faces)]))  # meshio as reference writer
+    part = load_part(path)
+    assert part.n_faces == len(mesh.faces) and part.n_vertices == len(mesh.vertices)
+
+
+@pytest.mark.parametrize("suffix", [".obj", ".ply", ".stl"])
+def test_save_part_round_trip_keeps_geometry_and_groups(tmp_path, suffix):
+    source = tmp_path / "src.obj"
+    source.write_text("v 0 0 0\nv 1 0 0\nv 1 1 0\nv 0 1 0\nv 2 0 0\ng wall\nf 1 2 3\nf 1 3 4\ng fillet\nf 2 5 3\n")
+    part = load_part(source)
+    again = load_part(save_part(part, tmp_path / f"copy{suffix}"))
+    np.testing.assert_allclose(again.vertices[again.faces], part.vertices[part.faces], atol=1e-6)
+    if suffix != ".stl":  # binary STL has no groups
+        assert again.group_names == part.group_names
+        assert list(again.face_group) == list(part.face_group)
+
+
+def test_welding_keeps_groups_and_counts_merges(tmp_path):
+    # Two groups as separate triangles sharing an edge by coordinates only.
+    text = "v 0 0 0\nv 1 0 0\nv 1 1 0\nv 0 0 0\nv 1 1 0\nv 0 1 0\ng a\nf 1 2 3\ng b\nf 4 5 6\n"
+    (tmp_path / "w.obj").write_text(text)
+    loaded = read_part(tmp_path / "w.obj")
+    assert loaded.merged_vertices == 2
+    assert loaded.part.n_vertices == 4 and list(loaded.part.face_group) == [0, 1]
+    assert not read_part(tmp_path / "w.obj", weld=False).merged_vertices
+
+
+def test_duplicate_and_collapsed_faces_are_dropped_with_warnings(tmp_path):
+    text = "v 0 0 0\nv 1 0 0\nv 1 1 0\nf 1 2 3\nf 2 3 1\nf 1 1 2\n"
+    (tmp_path / "d.obj").write_text(text)
+    loaded = read_part(tmp_path / "d.obj")
+    assert loaded.part.n_faces == 1
+    assert any("duplicate" in w for w in loaded.warnings) and any("collapsed" in w for w in loaded.warnings)
+
+
+def test_non_manifold_edge_is_fatal(tmp_path):
+    # Three triangles on one edge: an edge of a 2-manifold has at most two (common practice).
+    text = "v 0 0 0\nv 1 0 0\nv 0 1 0\nv 0 -1 0\nv 0 0 1\nf 1 2 3\nf 2 1 4\nf 1 2 5\n"
+    (tmp_path / "n.obj").write_text(text)
+    with pytest.raises(InputError, match="non-manifold"):
+        load_part(tmp_path / "n.obj")

@@ -22,7 +22,7 @@ Method (see docs/segmentation.md):
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import scipy.sparse as sp
@@ -34,6 +34,7 @@ from surfcheck.fillets import FilletRadius, measure_fillet
 from surfcheck.differential import Curvature, noise_level, principal_curvatures
 from surfcheck.part import Part
 from surfcheck.primitives import KINDS, Primitive, fit_simplest
+from surfcheck.seams import Curve, group_seams
 
 SCALE_EDGES = 2.5  # neighbourhood radius in median edge lengths: about 25 vertices per jet
 DISTANCE_SIGMAS = 3.0  # a face fits a primitive if its vertices' rms distance is under 3 noise levels
@@ -41,6 +42,8 @@ NORMAL_SIGMAS = 3.5  # ... and its normal is within 3.5 normal-noise levels
 LOOSE_NORMAL_DEG = 15.0  # competition: normals may be off this much (jets are biased near creases)
 BAND_ACROSS = 0.5  # band piece: median |border tangent . steepest direction| under this
 TANGENT_DEG = 12.0  # band piece: median angle between the normals across its borders under this
+BORDER_STEPS = 4  # face-ring averaging steps of the cost when a band's borders are placed
+BORDER_MADS = 6.0  # a face keeps its border faces while their averaged cost stays within 6 MADs
 MAX_ROUGHNESS_DEG = 40.0  # median angle between neighbouring triangles above which there is no surface
 MAX_SEEDS = 400  # seeds tried before giving up on the rest
 
@@ -543,7 +546,66 @@ def _assemble(part, mesh, label, models, freeform, nominal_radius, rho) -> Segme
     for j, kind in enumerate(kinds):
         if not consumed[j]:
             groups_faces.append((kind, np.flatnonzero(label == j), regions_model[j]))
-    return _named(part, mesh, groups_faces, nominal_radius, rho)
+    return _named(part, mesh, _refine_band_borders(mesh, groups_faces), nominal_radius, rho)
+
+
+def _smoothed(mesh: _Mesh, values: np.ndarray, inside: np.ndarray, steps: int) -> np.ndarray:
+    """``values`` averaged over face neighbourhoods ``steps`` times, within the faces ``inside``."""
+    keep = sp.diags(inside.astype(np.float64))
+    step = keep @ (mesh.adjacency + sp.identity(len(values), format="csr")) @ keep
+    weight = np.maximum(np.asarray(step.sum(axis=1)).ravel(), 1.0)
+    out = np.where(inside, values, 0.0)
+    for _ in range(steps):
+        out = (step @ out) / weight
+    return out
+
+
+def _refine_band_borders(mesh: _Mesh, groups_faces: list) -> list:
+    """Smooth the border between each fillet band and each neighbouring face.
+
+    Costs are averaged over a few face rings, which makes a per-face decision several times less
+    noisy. A band with a primitive of its own (a circular fillet) meets the face where the two averaged
+    costs (squared distance and normal residuals in noise units) are equal: where the two surfaces
+    touch. A freeform band (a G2 or G3 blend, whose deviation from the face grows from zero) meets it
+    where the face's averaged squared distance leaves its own typical level away from the band (median
+    plus BORDER_MADS median absolute deviations); distances are used alone there because jets are bent
+    within their radius of a change in curvature. Only faces within 3 BORDER_STEPS rings of the band move.
+    """
+    label = np.full(len(mesh.F), -1, dtype=np.int64)
+    for j, (_, faces, _) in enumerate(groups_faces):
+        label[faces] = j
+    for b, (kind, band_faces, band_model) in enumerate(groups_faces):
+        if kind != "fillet":
+            continue
+        around = np.unique(label[mesh.adjacency[label == b].indices])
+        sides = [n for n in around if n != b and groups_faces[n][2] is not None and groups_faces[n][0] != "fillet"]
+        if not sides:
+            continue
+        near_band = np.asarray(_nearby_labels(mesh, (label == b).astype(np.int64) - 1, 1, 3 * BORDER_STEPS)[:, 0].todense()).ravel()
+        zone = np.isin(label, [b, *sides])
+        movable = zone & near_band
+        band_cost = _smoothed(mesh, mesh.cost(band_model), zone, BORDER_STEPS) if band_model is not None else None
+        best_cost = np.full(len(label), np.inf)
+        best_side = np.full(len(label), b)
+        for n in sides:
+            model = groups_faces[n][2]
+            if band_cost is not None:
+                cost = _smoothed(mesh, mesh.cost(model), zone, BORDER_STEPS)
+                takes = movable & (cost < band_cost) & (cost < best_cost)
+            else:
+                cost = _smoothed(mesh, (mesh.distance(model) / mesh.noise) ** 2, zone, BORDER_STEPS)
+                own = cost[(label == n) & ~near_band]
+                own = cost[label == n] if len(own) < 10 else own
+                level = np.median(own) + BORDER_MADS * np.median(np.abs(own - np.median(own)))
+                takes = movable & (cost < level) & (cost < best_cost)
+            best_cost[takes], best_side[takes] = cost[takes], n
+        label[movable] = best_side[movable]
+    out = []
+    for j, (kind, _, model) in enumerate(groups_faces):
+        faces = np.flatnonzero(label == j)
+        if len(faces):
+            out.append((kind, faces, model))
+    return out
 
 
 def _named(part, mesh, groups_faces, nominal_radius, rho) -> Segmentation:
@@ -576,3 +638,21 @@ def _named(part, mesh, groups_faces, nominal_radius, rho) -> Segmentation:
     if not any(g.kind == "fillet" for g in groups):
         notes.append("no fillet bands found" + ("; no seams found: the part is one face" if len(groups) == 1 else ""))
     return Segmentation(labelled, tuple(groups), mesh.noise, mesh.normal_noise, rho, tuple(notes))
+
+
+def seams_of_segmentation(seg: Segmentation) -> list[Curve]:
+    """The seams of every fillet band with its faces, as Curves of kind "seam" with groups
+    (face, fillet); InputError "no seams found" when the part has no fillet band."""
+    fillets = {g.name for g in seg.fillets}
+    if not fillets:
+        raise InputError(
+            f"{seg.part.source or 'part'}: no seams found: the segmentation has {len(seg.groups)} face(s) "
+            "and no fillet band (" + ", ".join(g.name for g in seg.groups) + ")"
+        )
+    found = []
+    for curve in group_seams(seg.part):
+        a, b = curve.groups
+        if (a in fillets) == (b in fillets):
+            continue
+        found.append(curve if b in fillets else replace(curve, groups=(b, a)))
+    return found

@@ -25,9 +25,9 @@ from scipy.spatial.transform import Rotation
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 
-COARSE_ITERATIONS = 8
+COARSE_ITERATIONS = 6
 CANDIDATE_FACES = 8
-MAX_SAMPLES = 20000
+MAX_SAMPLES = 10000
 POINT_WEIGHT = 0.2  # weight of the point-to-point rows beside the point-to-plane ones
 
 
@@ -109,9 +109,9 @@ def _icp(source: np.ndarray, tree: cKDTree, target: np.ndarray, normals: np.ndar
         skew[:, 0, 1], skew[:, 0, 2], skew[:, 1, 2] = P[:, 2], -P[:, 1], P[:, 0]
         skew -= np.swapaxes(skew, 1, 2)  # [P]x, so that omega x P = -[P]x omega
         point_rows = POINT_WEIGHT * np.concatenate([-skew, np.broadcast_to(np.eye(3), skew.shape)], axis=2)
-        A = np.vstack([plane_rows, point_rows.reshape(-1, 6)])
-        b = np.concatenate([-d, POINT_WEIGHT * (q - P).ravel()])
-        x = np.linalg.solve(A.T @ A + 1e-12 * np.eye(6), A.T @ b)
+        normal = plane_rows.T @ plane_rows + np.einsum("nki,nkj->ij", point_rows, point_rows)
+        rhs = plane_rows.T @ -d + np.einsum("nki,nk->i", point_rows, POINT_WEIGHT * (q - P))
+        x = np.linalg.solve(normal + 1e-12 * np.eye(6), rhs)
         move = np.eye(4)
         move[:3, :3] = Rotation.from_rotvec(x[:3]).as_matrix()
         move[:3, 3] = x[3:]
@@ -129,7 +129,7 @@ def align(scan: Part, nominal: Part, max_iterations: int = 60) -> Alignment:
     tolerance = 1e-6 * nominal.diagonal
     ms, axes_s, _ = _moments(scan)
     mn, axes_n, _ = _moments(nominal)
-    coarse = _samples(scan, 2000)
+    coarse = _samples(scan, 1000)
     best = None
     for M in _proper_axis_maps():
         R = axes_n @ M @ axes_s.T

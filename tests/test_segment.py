@@ -149,3 +149,25 @@ def test_a_triangle_soup_is_refused_with_a_clear_message():
     F = F[(F[:, 0] != F[:, 1]) & (F[:, 1] != F[:, 2]) & (F[:, 0] != F[:, 2])]
     with pytest.raises(InputError, match="soup.stl"):
         segment_part(Part(V, F, np.zeros(len(F), dtype=np.int64), ("scan",), source="soup.stl"))
+
+
+def test_seams_of_segmentation_are_face_fillet_pairs(bracket_case):
+    from surfcheck.segment import seams_of_segmentation
+
+    _, _, seg = bracket_case
+    seams = seams_of_segmentation(seg)
+    # construction: each of the three fillets meets two walls along a line the length of the extrusion
+    assert len(seams) == 6
+    for seam in seams:
+        assert seam.kind == "seam"
+        assert seg.group(seam.groups[0]).kind == "plane" and seg.group(seam.groups[1]).kind == "fillet"
+        assert seam.length == pytest.approx(40.0, rel=0.02)
+
+
+def test_no_seams_found_is_a_clear_error():
+    from surfcheck.segment import seams_of_segmentation
+
+    V, F = grid()
+    seg = segment_part(Part(V, F, np.zeros(len(F), dtype=np.int64), ("scan",), source="plate.stl"))
+    with pytest.raises(InputError, match="no seams found"):
+        seams_of_segmentation(seg)

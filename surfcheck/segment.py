@@ -30,7 +30,7 @@ from scipy.sparse.csgraph import breadth_first_order, connected_components
 from scipy.spatial import cKDTree
 
 from surfcheck.errors import InputError
-from surfcheck.fillets import FilletRadius, measure_fillet
+from surfcheck.fillets import FilletRadius, _stations, measure_fillet
 from surfcheck.differential import Curvature, noise_level, principal_curvatures
 from surfcheck.part import Part
 from surfcheck.primitives import KINDS, Primitive, fit_simplest
@@ -44,6 +44,7 @@ BAND_ACROSS = 0.5  # band piece: median |border tangent . steepest direction| un
 TANGENT_DEG = 12.0  # band piece: median angle between the normals across its borders under this
 BORDER_STEPS = 4  # face-ring averaging steps of the cost when a band's borders are placed
 BORDER_MADS = 6.0  # a face keeps its border faces while their averaged cost stays within 6 MADs
+STRAIGHTEN_REACH = 3.0  # scales either side of a band border that are relabelled when it is straightened
 MAX_ROUGHNESS_DEG = 40.0  # median angle between neighbouring triangles above which there is no surface
 MAX_SEEDS = 400  # seeds tried before giving up on the rest
 
@@ -126,6 +127,7 @@ class _Mesh:
     shape: Curvature
     noise: float
     normal_noise: float
+    scale: float
 
     def distance(self, model: Primitive) -> np.ndarray:
         """(m,) rms over each face's corners of their distance to the model."""
@@ -197,7 +199,7 @@ def _prepare(part: Part, scale: float | None, noise: float | None) -> _Mesh:
     normals /= np.maximum(np.linalg.norm(normals, axis=1, keepdims=True), 1e-300)
     centroids = part.vertices[F].mean(axis=1)
     return _Mesh(part.vertices, F, adjacency, centroids, normals, part.face_areas, shape,
-                 sigma, normal_noise)
+                 sigma, normal_noise, rho)
 
 
 def _reachable(mesh: _Mesh, allowed: np.ndarray, seed: int) -> np.ndarray:
@@ -471,13 +473,8 @@ def _border_direction(mesh: _Mesh, fa: np.ndarray, fb: np.ndarray, label: np.nda
     _, group = np.unique(pair, axis=0, return_inverse=True)
     direction = np.zeros_like(mid)
     for g in np.unique(group):
-        idx = np.flatnonzero(group == g)
-        kk = min(k, len(idx))
-        _, near = cKDTree(mid[idx]).query(mid[idx], k=kk)
-        Q = mid[idx][near.reshape(len(idx), kk)]
-        Q = Q - Q.mean(axis=1, keepdims=True)
-        _, vecs = np.linalg.eigh(np.einsum("nki,nkj->nij", Q, Q))
-        direction[idx] = vecs[:, :, 2]
+        idx = np.flatnonzero(group.ravel() == g)
+        direction[idx] = _principal_directions(mid[idx], k)
     return direction
 
 
@@ -600,12 +597,102 @@ def _refine_band_borders(mesh: _Mesh, groups_faces: list) -> list:
                 takes = movable & (cost < level) & (cost < best_cost)
             best_cost[takes], best_side[takes] = cost[takes], n
         label[movable] = best_side[movable]
+        for n in sides:
+            label = _straightened_border(mesh, label, b, n)
+    label = _absorbed_fragments(mesh, label)
     out = []
     for j, (kind, _, model) in enumerate(groups_faces):
         faces = np.flatnonzero(label == j)
         if len(faces):
             out.append((kind, faces, model))
     return out
+
+
+def _straightened_border(mesh: _Mesh, label: np.ndarray, band: int, side: int) -> np.ndarray:
+    """Straighten the border between ``band`` and ``side`` station by station.
+
+    Stations every two scales along the border each get a reference point (the mean of their border
+    vertices) and a direction across the border in the surface; faces of either group within
+    STRAIGHTEN_REACH scales get an across coordinate s from their station. At each station the
+    threshold on s that disagrees with the fewest current labels is taken (a one-dimensional
+    classification), the thresholds are median-filtered along the border, and the faces are relabelled
+    by them: the border keeps its place but loses the staircase that noise leaves in per-face decisions.
+    """
+    in_band, in_side = label == band, label == side
+    on_band = np.zeros(len(mesh.V), dtype=bool)
+    on_side = np.zeros(len(mesh.V), dtype=bool)
+    on_band[mesh.F[in_band].ravel()] = True
+    on_side[mesh.F[in_side].ravel()] = True
+    border = np.flatnonzero(on_band & on_side)
+    if len(border) < 6:
+        return label
+    P = mesh.V[border]
+    cand = np.flatnonzero(in_band | in_side)
+    dist, j = cKDTree(P).query(mesh.centroids[cand], distance_upper_bound=STRAIGHTEN_REACH * mesh.scale)
+    near = np.isfinite(dist)
+    cand, j = cand[near], j[near]
+    stations = _stations(P, 2.0 * mesh.scale)
+    station_of = cKDTree(P[stations]).query(P[j])[1]
+    # each station's reference: the mean and principal axis of the border points nearest to it
+    border_station = cKDTree(P[stations]).query(P)[1]
+    centre = np.stack([P[border_station == k].mean(axis=0) for k in range(len(stations))])
+    tangent = _principal_directions(P, 3 * max(1, len(P) // max(len(stations), 1)))[stations]
+    normal = mesh.shape.normals[border[stations]]
+    across = np.cross(tangent, normal)
+    across /= np.maximum(np.linalg.norm(across, axis=1, keepdims=True), 1e-300)
+    s = np.einsum("ij,ij->i", mesh.centroids[cand] - centre[station_of], across[station_of])
+    vote = np.bincount(station_of, weights=np.where(in_band[cand], s, -s), minlength=len(stations))
+    s *= np.where(vote[station_of] < 0, -1.0, 1.0)  # s > 0 on the band's side at every station
+    threshold = np.zeros(len(stations))
+    for k in range(len(stations)):
+        mine = station_of == k
+        order = np.argsort(s[mine])
+        ys, ss = in_band[cand[mine]][order], s[mine][order]
+        # wrong labels if the cut is before position i: band faces below plus side faces above
+        wrong = np.concatenate([[0], np.cumsum(ys)]) + np.concatenate([np.cumsum((~ys)[::-1])[::-1], [0]])
+        i = int(np.argmin(wrong))
+        threshold[k] = 0.0 if not len(ss) else (ss[i - 1] + ss[i]) / 2 if 0 < i < len(ss) else ss[min(i, len(ss) - 1)]
+    padded = np.concatenate([threshold[:1], threshold, threshold[-1:]])
+    threshold = np.median(np.stack([padded[:-2], padded[1:-1], padded[2:]]), axis=0)
+    out = label.copy()
+    out[cand] = np.where(s < threshold[station_of], side, band)
+    return out
+
+
+def _absorbed_fragments(mesh: _Mesh, label: np.ndarray, rounds: int = 3) -> np.ndarray:
+    """Give every piece of a group other than its largest to the group it shares most edges with
+    (straight cuts through a triangulation leave single triangles joined to their group by a corner)."""
+    label = label.copy()
+    A = mesh.adjacency.tocoo()
+    for _ in range(rounds):
+        same = label[A.row] == label[A.col]
+        g = sp.csr_matrix((np.ones(int(same.sum())), (A.row[same], A.col[same])), shape=A.shape)
+        _, piece = connected_components(g, directed=False)
+        area = np.bincount(piece, weights=mesh.areas)
+        main = np.zeros(len(area), dtype=bool)
+        for lab in np.unique(label):
+            pieces = np.unique(piece[label == lab])
+            main[pieces[np.argmax(area[pieces])]] = True
+        stray = ~main[piece]
+        if not stray.any():
+            break
+        cross = stray[A.row] & (label[A.row] != label[A.col])
+        votes = sp.csr_matrix((np.ones(int(cross.sum())), (piece[A.row[cross]], label[A.col[cross]])),
+                              shape=(len(area), int(label.max()) + 1)).toarray()
+        target = np.argmax(votes, axis=1)
+        has_vote = votes.max(axis=1) > 0
+        move = stray & has_vote[piece]
+        label[move] = target[piece[move]]
+    return label
+
+
+def _principal_directions(points: np.ndarray, k: int) -> np.ndarray:
+    """Unit principal axis of each point's k nearest neighbours among ``points``."""
+    k = min(k, len(points))
+    _, near = cKDTree(points).query(points, k=k)
+    Q = points[near.reshape(len(points), k)]
+    Q = Q - Q.mean(axis=1, keepdims=True)
+    return np.linalg.eigh(np.einsum("nki,nkj->nij", Q, Q))[1][:, :, 2]
 
 
 def _named(part, mesh, groups_faces, nominal_radius, rho) -> Segmentation:

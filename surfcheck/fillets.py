@@ -82,7 +82,7 @@ def seam_vertices(part: Part, group_a: int, group_b: int) -> np.ndarray:
     return np.flatnonzero(in_a & in_b)
 
 
-def _stations(points: np.ndarray, spacing: float) -> np.ndarray:
+def stations_along(points: np.ndarray, spacing: float) -> np.ndarray:
     """Indices of seam points at least ``spacing`` apart, chained from one end to the other."""
     tree = cKDTree(points)
     taken = np.zeros(len(points), dtype=bool)
@@ -114,7 +114,7 @@ def measure_fillet(
     spacing = max(2.0 * scale, 0.5 * width)
     tree = cKDTree(V[band_vertices])
     stations, radii, rms = [], [], []
-    for i in _stations(S, spacing):
+    for i in stations_along(S, spacing):
         near = S[np.linalg.norm(S - S[i], axis=1) < spacing]
         if len(near) < 2:
             continue

@@ -14,10 +14,17 @@ import trimesh
 
 from surfcheck.demo import EDGE, SCAN_MOTION, housing_part, scanned_part
 from surfcheck.segment import segment_part
-from surfcheck.transfer import _icp, _moments, _proper_axis_maps, _samples, align, transfer_groups
+from surfcheck.transfer import MAX_SAMPLES, Target, sample_vertices, align, coarse_pose, transfer_groups
 from synthetic_parts import boss_on_plate, bracket, housing, scanned
 
 NOISE = 0.02
+
+
+def best_group(truth, seg, t):
+    """The found group holding most of true piece t's area, and the share of that area it holds."""
+    mine = truth.face_group == t
+    area = np.bincount(seg.part.face_group[mine], truth.face_areas[mine], len(seg.part.group_names))
+    return seg.part.group_names[int(np.argmax(area))], float(area.max() / area.sum())
 
 
 def segmentation_rows():
@@ -31,33 +38,27 @@ def segmentation_rows():
         took = time.perf_counter() - start
         shares = []
         for t, kind in enumerate(profile.kinds):
-            mine = truth.face_group == t
-            area = np.bincount(seg.part.face_group[mine], truth.face_areas[mine], len(seg.part.group_names))
-            g = int(np.argmax(area))
+            g, share = best_group(truth, seg, t)
             label = {"wall": "wall", "arc": f"r{profile.radii[t]:g}"}.get(kind, kind)
             extra = ""
-            group = seg.group(seg.part.group_names[g])
             if kind == "arc":
-                extra = f" r={group.fillet.mean:.3f} ({100 * (group.fillet.mean / profile.radii[t] - 1):+.2f} %)"
-            shares.append(f"{label}->{seg.part.group_names[g]} {100 * area[g] / area.sum():.1f} %{extra}")
+                mean = seg.group(g).fillet.mean
+                extra = f" r={mean:.3f} ({100 * (mean / profile.radii[t] - 1):+.2f} %)"
+            shares.append(f"{label}->{g} {100 * share:.1f} %{extra}")
         print(f"| {name} | {scan.n_faces} | {NOISE} | {took:.1f} | {len(seg.groups)} | {'; '.join(shares)} |")
     demo_rows()
 
 
 def demo_rows():
-    nominal, scan = housing_part(), scanned_part()
-    truth = housing_part(edge=0.9 * EDGE, skew=0.3)
+    scan, truth = scanned_part(), housing_part(edge=0.9 * EDGE, skew=0.3)
     start = time.perf_counter()
     seg = segment_part(scan)
     took = time.perf_counter() - start
     shares = []
     for t, name in enumerate(truth.group_names):
-        mine = truth.face_group == t
-        area = np.bincount(seg.part.face_group[mine], truth.face_areas[mine], len(seg.part.group_names))
-        g = int(np.argmax(area))
-        shares.append(f"{name}->{seg.part.group_names[g]} {100 * area[g] / area.sum():.1f} %")
+        g, share = best_group(truth, seg, t)
+        shares.append(f"{name}->{g} {100 * share:.1f} %")
     print(f"| demo housing scan | {scan.n_faces} | 0.01 | {took:.1f} | {len(seg.groups)} | {'; '.join(shares)} |")
-    del nominal
 
 
 def transfer_rows():
@@ -85,27 +86,14 @@ def transfer_rows():
 
 
 def fine_icp_against_trimesh(scan, nominal, motion):
-    """Both ICPs from the same coarse pose (the best axis map after the coarse stage)."""
-    from scipy.spatial import cKDTree
-
-    normals = trimesh.Trimesh(nominal.vertices, nominal.faces, process=False).vertex_normals
-    tree = cKDTree(nominal.vertices)
-    ms, axes_s, _ = _moments(scan)
-    mn, axes_n, _ = _moments(nominal)
-    coarse = _samples(scan, 1000)
-    best = None
-    for M in _proper_axis_maps():
-        R = axes_n @ M @ axes_s.T
-        start = np.eye(4)
-        start[:3, :3], start[:3, 3] = R, mn - R @ ms
-        T, rms, share, _ = _icp(coarse, tree, nominal.vertices, normals, start, 6, 1e-6 * nominal.diagonal)
-        if best is None or rms / share < best[0]:
-            best = (rms / share, T)
-    points = _samples(scan, 10000)
+    """Both ICPs from the same coarse pose; each one's largest displacement error on the part."""
+    target = Target.of(nominal)
+    start = coarse_pose(scan, nominal, target)
+    points = sample_vertices(scan, MAX_SAMPLES)
     t0 = time.perf_counter()
-    T, *_ = _icp(points, tree, nominal.vertices, normals, best[1], 60, 1e-6 * nominal.diagonal)
+    T, *_ = target.icp(points, start, 60)
     t1 = time.perf_counter()
-    T_ref, _, _ = trimesh.registration.icp(points, nominal.vertices, initial=best[1], threshold=1e-9, max_iterations=60)
+    T_ref, _, _ = trimesh.registration.icp(points, nominal.vertices, initial=start, threshold=1e-9, max_iterations=60)
     t2 = time.perf_counter()
 
     def drift(M):

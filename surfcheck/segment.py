@@ -20,13 +20,14 @@ from surfcheck.errors import InputError
 from surfcheck.fillets import FilletRadius, measure_fillet
 from surfcheck.part import Part
 from surfcheck.primitives import Primitive
-from surfcheck.regions import (SCALE_EDGES, compete, fit_faces, grow_regions, largest_pieces, merge_regions,
+from surfcheck.regions import (compete, fit_faces, grow_regions, largest_pieces, merge_regions,
                                prepare_mesh, settle_leftovers)
 from surfcheck.seams import Curve, group_seams
 
 @dataclass(frozen=True, eq=False)
 class SegmentGroup:
-    """One segmented group: a face (kind plane, cylinder, sphere, cone or freeform) or a fillet band."""
+    """One segmented group: a face (kind plane, cylinder, sphere, cone, torus or freeform) or a fillet
+    band (kind fillet, with its radius along its length)."""
 
     name: str
     kind: str
@@ -106,7 +107,7 @@ def segment_part(
     """
     where = part.source or "part"
     mesh = prepare_mesh(part, scale, noise)
-    rho = SCALE_EDGES * float(np.median(part.edge_lengths)) if scale is None else float(scale)
+    rho = mesh.scale
     min_area = np.pi * (2 * rho) ** 2 if min_face_area is None else float(min_face_area)
     min_faces = max(10, int(min_area / max(np.median(mesh.areas), 1e-300) / 4))
     label, models = merge_regions(mesh, *grow_regions(mesh, min_faces, rho))

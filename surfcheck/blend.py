@@ -30,6 +30,8 @@ from surfcheck.steps import KINDS, smooth_step
 
 MAX_ORDER = 3  # the extensions carry tangent, curvature and curvature rate
 FINE_T = 257  # samples per column for the cross arc length
+LEAN_BACK = 0.01  # a section may reach this fraction of the gap behind a side's boundary (from memory)
+MAX_TURN_PER_EDGE = 0.5  # radians a section may turn over one edge length and still be shown (from memory)
 
 
 @dataclass(frozen=True)
@@ -81,9 +83,15 @@ class BlendResult:
     problems: tuple[str, ...]
 
 
-def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, order: int, step: str = "exp",
+def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, order: int, step: str = "hermite",
                 span: float | None = None, resolution: float | None = None) -> BlendResult:
     """A patch joining chain A of part A to chain B of part B with G^order contact on both.
+
+    ``step`` is the smooth step's kind, of order ``order`` (steps.KINDS). The default is the hermite
+    step, C^order exactly: its curvature changes polynomially away from the seams, which one-sided
+    polynomial fits on a mesh can resolve. The exp step is C-infinity, but its derivatives stay
+    exponentially flat near the seams and then rise steeply, so its contact is exact yet rarely
+    resolvable on a practical mesh (docs/blend.md).
 
     ``span`` fixes both extensions' reach (part units); by default it is chosen per column from the
     gap and the turn (see default_spans). ``resolution`` is the target edge length, by default the
@@ -109,7 +117,9 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     else:
         span_a = span_b = np.full(columns, float(span))
     surface = BlendSurface(side_a, side_b, span_a, span_b, step, order)
-    t_rows = _rows_of_equal_arc_length(surface, spacing)
+    fine_t = np.linspace(0.0, 1.0, FINE_T)
+    columns_fine = surface.derivative(fine_t[:, None])  # (FINE_T, columns, 3)
+    t_rows = _rows_of_equal_arc_length(columns_fine, fine_t, spacing)
     interior = surface.derivative(t_rows[1:-1]).reshape(-1, 3)
     V, F, row_a, row_b, vertex_u = _triangulate(chain_a, chain_b, interior, u, s_a, mapping.inverse(s_b))
     flip = boundary_direction(part_a, chain_a) > 0  # the patch must run along chain A against part A
@@ -119,7 +129,8 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     if boundary_direction(part_b, chain_b) == along_b:
         raise InputError(f"the triangles beside {chain_b.id} wind opposite to those beside {chain_a.id} "
                          "across the gap; reorient one part so that their normals agree")
-    problems = _find_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface)
+    problems = _column_problems(columns_fine, surface, chain_a, u, part_a.units, spacing)
+    problems += _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface, u)
     return BlendResult(V, F, row_a, row_b, chain_a, chain_b, order, step, spacing, surface, u, mapping,
                        tuple(problems))
 
@@ -162,7 +173,7 @@ def _check_request(part_a, chain_a, part_b, chain_b, order, step, span, resoluti
             raise InputError(f"{chain.id} is a {chain.kind}, not a boundary loop or chain; blends join boundaries")
         if len(chain.vertices) < (3 if chain.closed else 2):
             raise InputError(f"chain {chain.id} has too few vertices to bridge")
-    same_part = part_a is part_b
+    same_part = part_a is part_b or bool(part_a.source and part_a.source == part_b.source)
     if same_part and (chain_a.id == chain_b.id or np.intersect1d(chain_a.vertices, chain_b.vertices).size):
         raise InputError(f"the two chains ({chain_a.id}, {chain_b.id}) are the same or share vertices; "
                          "pick two different boundary chains")
@@ -176,10 +187,8 @@ def _edge_lengths(chain: Curve) -> np.ndarray:
     return np.linalg.norm(np.diff(pts, axis=0), axis=1)
 
 
-def _rows_of_equal_arc_length(surface: BlendSurface, spacing: float) -> np.ndarray:
+def _rows_of_equal_arc_length(samples: np.ndarray, t: np.ndarray, spacing: float) -> np.ndarray:
     """(rows, columns) values of t at equal cross arc length along each column, first 0 and last 1."""
-    t = np.linspace(0.0, 1.0, FINE_T)
-    samples = surface.derivative(t[:, None])
     steps = np.linalg.norm(np.diff(samples, axis=0), axis=2)
     arc = np.vstack([np.zeros(steps.shape[1]), np.cumsum(steps, axis=0)])
     rows = max(5, int(np.ceil(arc[-1].mean() / spacing)) + 1)
@@ -248,24 +257,64 @@ def _triangulate(chain_a: Curve, chain_b: Curve, interior: np.ndarray, u: np.nda
     return V, F, row_a, row_b, vertex_u
 
 
-def _find_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface) -> list[str]:
-    """One line for each reason the patch cannot be trusted: fold-over, or running into itself or a part."""
+def _where(surface: BlendSurface, chain_a: Curve, u: np.ndarray, at: float, units: str) -> str:
+    """Where a problem is (the column nearest parameter ``at``), and the gap and turn there."""
+    c = int(np.argmin(np.abs(u - at)))
+    gap = np.linalg.norm(surface.side_b.p[c] - surface.side_a.p[c])
+    turn = np.degrees(np.arccos(np.clip(-np.dot(surface.side_a.D[c], surface.side_b.D[c]), -1.0, 1.0)))
+    return (f"{at * chain_a.length:.4g} {units} along {chain_a.id}, where the {gap:.4g} {units} gap "
+            f"must turn {turn:.0f} degrees")
+
+
+def _folds_over(where: str) -> str:
+    return (f"the patch folds over near {where}: the gap is too short for that turn or the span too long "
+            "(widen the gap or set a shorter --span)")
+
+
+def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve, u: np.ndarray, units: str,
+                     spacing: float) -> list[str]:
+    """Problems seen on the analytic cross sections: a section that turns back on itself (fold), one
+    that bends tighter than the mesh can show (a gap too short for its turn), or one that reaches back
+    behind either side's boundary (a span too long for the gap)."""
+    problems = []
+    seg = np.diff(samples, axis=0)
+    folds = np.sum(seg[1:] * seg[:-1], axis=2) <= 0.0
+    if folds.any():
+        c = int(np.flatnonzero(folds.any(axis=0))[0])
+        problems.append(_folds_over(_where(surface, chain_a, u, u[c], units)))
+    else:
+        lengths = np.linalg.norm(seg, axis=2)
+        cos_turn = np.sum(seg[1:] * seg[:-1], axis=2) / (lengths[1:] * lengths[:-1])
+        bend = np.arccos(np.clip(cos_turn, -1.0, 1.0)) / (0.5 * (lengths[1:] + lengths[:-1]))
+        tight = bend.max(axis=0) * spacing > MAX_TURN_PER_EDGE
+        if tight.any():
+            c = int(np.argmax(bend.max(axis=0)))
+            problems.append(f"the patch bends too tightly near {_where(surface, chain_a, u, u[c], units)}: radius "
+                            f"{1.0 / bend[:, c].max():.3g} {units} under {spacing:.3g} {units} triangles; the gap "
+                            "is too short for the turn or the span too long (widen the gap, refine the mesh or "
+                            "set a shorter --span)")
+    gap = np.linalg.norm(surface.side_b.p - surface.side_a.p, axis=1)
+    behind_a = np.einsum("tcj,cj->tc", samples - surface.side_a.p, surface.side_a.D).min(axis=0)
+    behind_b = np.einsum("tcj,cj->tc", samples - surface.side_b.p, surface.side_b.D).min(axis=0)
+    behind = np.minimum(behind_a, behind_b) < -LEAN_BACK * gap
+    if behind.any():
+        c = int(np.flatnonzero(behind)[0])
+        problems.append(f"the patch leans back behind a side's boundary near {_where(surface, chain_a, u, u[c], units)}"
+                        ": the span is too long for the gap (set a shorter --span)")
+    return problems
+
+
+def _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface, u) -> list[str]:
+    """Problems seen on the triangles: fold-over between neighbours, or running into itself or a part."""
     problems = []
     units = part_a.units
-    columns = surface.span_a.shape[0]
 
     def where(faces: np.ndarray) -> str:
-        u = float(np.median(vertex_u[F[faces]]))
-        c = int(np.clip(np.round(u * (columns - (not chain_a.closed))), 0, columns - 1)) % columns
-        gap = np.linalg.norm(surface.side_b.p[c] - surface.side_a.p[c])
-        turn = np.degrees(np.arccos(np.clip(-np.dot(surface.side_a.D[c], surface.side_b.D[c]), -1.0, 1.0)))
-        return (f"{u * chain_a.length:.4g} {units} along {chain_a.id}, where the {gap:.4g} {units} gap "
-                f"must turn {turn:.0f} degrees")
+        return _where(surface, chain_a, u, float(np.median(vertex_u[F[faces]])), units)
 
     folded = folded_faces(V, F)
     if len(folded):
-        problems.append(f"the patch folds over near {where(folded)}: the gap is too short for that turn "
-                        "(widen the gap or set a shorter --span)")
+        problems.append(_folds_over(where(folded)))
     w = weld(part_a, chain_a, V, F, row_a, row_b, part_b, chain_b)
     hits = crossing_pairs(w.vertices, w.faces, w.patch_faces)
     if len(hits):

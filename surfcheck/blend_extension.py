@@ -24,7 +24,7 @@ from scipy.interpolate import CubicSpline
 from scipy.sparse.csgraph import dijkstra
 from scipy.spatial import cKDTree
 
-from surfcheck.blend_correspondence import arc_parameters
+from surfcheck.differential import fit_height, jet_exponents, vertex_normals
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
@@ -32,6 +32,7 @@ from surfcheck.seams import Curve
 FIT_RADIUS_EDGES = 5.0  # fit window radius in chain edge lengths (common practice, no published source)
 NEIGHBOURS = 160
 MIN_POINTS_PER_COEFFICIENT = 3
+MAX_FIT_DEGREE = 4
 
 
 @dataclass(frozen=True)
@@ -81,51 +82,36 @@ def boundary_extension(part: Part, chain: Curve, order: int, radius: float | Non
     spacing = float(np.median(np.linalg.norm(np.diff(P, axis=0), axis=1)))
     radius = radius or FIT_RADIUS_EDGES * spacing
     faces = _side_faces(part, chain)
-    sample_points, sample_index = _side_vertices(part, faces, chain.vertices, 3.0 * radius)
-    T = _unit(_chain_tangents(P, chain.closed))
-    N0 = _unit(_vertex_normals(part, faces)[chain.vertices])
-    degree = order + 2  # one above the highest derivative used, against the bias of the next term
-    exponents = [(i, d - i) for d in range(degree + 1) for i in range(d + 1)]
+    samples = _side_vertices(part, faces, chain.vertices, 3.0 * radius)
+    exponents = jet_exponents(min(order + 2, MAX_FIT_DEGREE))  # above the top derivative: less bias
     need = MIN_POINTS_PER_COEFFICIENT * len(exponents)
-    if len(sample_points) < need:
+    if len(samples) < need:
         raise InputError(f"chain {chain.id}: too few vertices beside the chain to fit its surface "
-                         f"({len(sample_points)}, need {need}); the mesh is too coarse near that boundary")
-    distance, neighbour = cKDTree(sample_points).query(P, k=min(NEIGHBOURS, len(sample_points)))
+                         f"({len(samples)}, need {need}); the mesh is too coarse near that boundary")
+    distance, neighbour = cKDTree(samples).query(P, k=min(NEIGHBOURS, len(samples)))
     window = np.maximum(radius, 1.05 * distance[:, need - 1])  # wider at chain ends, where a side is thin
-    valid = distance < window[:, None]
-    offsets = sample_points[neighbour] - P[:, None, :]
-    inward = np.sum(offsets * valid[..., None], axis=1)
-    D0 = np.cross(N0, T)
-    D0 = np.where(np.sum(D0 * inward, axis=1, keepdims=True) > 0, -D0, D0)
-    weights = np.where(valid, np.clip(1.0 - (distance / window[:, None]) ** 2, 0.0, None) ** 2, 0.0)
-    frame = (T, D0, N0)
+    weights = np.clip(1.0 - (distance / window[:, None]) ** 2, 0.0, None) ** 2
+    offsets = samples[neighbour] - P[:, None, :]
+    T = _unit(_chain_tangents(P, chain.closed))
+    N = vertex_normals(part.vertices, faces)[chain.vertices]
+    D = np.cross(N, T)
+    inward = np.einsum("sk,skc->sc", weights, offsets)
+    D = np.where(np.sum(D * inward, axis=1, keepdims=True) > 0, -D, D)
     for _ in range(2):  # the second fit is made in the tangent frame the first one found
-        coeff = _fit_heights(offsets, weights, frame, exponents, window)
-        T_, D_, N_ = frame
+        coeff = _fit(offsets, weights, (T, D, N), exponents, window)
         gx, gy = coeff[:, exponents.index((1, 0))], coeff[:, exponents.index((0, 1))]
-        N1 = _unit(N_ - gx[:, None] * T_ - gy[:, None] * D_)
-        T1 = _unit(T_ - np.sum(T_ * N1, axis=1, keepdims=True) * N1)
-        frame = (T1, np.cross(N1, T1) * np.sign(np.sum(np.cross(N1, T1) * D_, axis=1, keepdims=True)), N1)
-    T1, D1, N1 = frame
+        N = _unit(N - gx[:, None] * T - gy[:, None] * D)
+        T = _unit(T - np.sum(T * N, axis=1, keepdims=True) * N)
+        D = np.cross(N, T) * np.sign(np.sum(np.cross(N, T) * D, axis=1, keepdims=True))
     taylor = [coeff[:, exponents.index((0, j))] * factorial(j) / window ** (j - 1) for j in range(2, order + 1)]
     coefficients = np.stack(taylor, axis=1) if taylor else np.zeros((len(P), 0))
-    return Extension(P.copy(), D1, N1, coefficients)
+    return Extension(P.copy(), D, N, coefficients)
 
 
-def extension_parameters(chain: Curve) -> np.ndarray:
-    """Normalised arc-length parameter of each chain vertex (the stations of its extension)."""
-    return arc_parameters(chain.points, chain.closed)
-
-
-def _fit_heights(offsets, weights, frame, exponents, window) -> np.ndarray:
-    """Weighted least-squares height polynomials in scaled local coordinates, one per station."""
-    T, D, N = frame
-    x, y, z = (np.einsum("skc,sc->sk", offsets, axis) / window[:, None] for axis in (T, D, N))
-    A = np.stack([x**i * y**j for i, j in exponents], axis=-1)
-    Aw = A * weights[..., None]
-    normal = np.einsum("ski,skj->sij", Aw, A)
-    rhs = np.einsum("ski,sk->si", Aw, z)
-    return np.linalg.solve(normal, rhs[..., None])[..., 0]
+def _fit(offsets, weights, frame, exponents, window) -> np.ndarray:
+    """Height polynomials in the frame (x along T, y along D, heights along N), scaled by the window."""
+    x, y, z = (np.einsum("skc,sc->sk", offsets, axis) / window[:, None] for axis in frame)
+    return fit_height(x, y, z, weights, exponents)[0]
 
 
 def _side_faces(part: Part, chain: Curve) -> np.ndarray:
@@ -135,32 +121,21 @@ def _side_faces(part: Part, chain: Curve) -> np.ndarray:
     return part.faces
 
 
-def _side_vertices(part: Part, faces: np.ndarray, chain_vertices: np.ndarray, limit: float):
-    """Vertices of ``faces`` within mesh distance ``limit`` of the chain, so the other side of a narrow
-    gap on the same part is never taken for this side."""
+def _side_vertices(part: Part, faces: np.ndarray, chain_vertices: np.ndarray, limit: float) -> np.ndarray:
+    """Positions of the vertices of ``faces`` within mesh distance ``limit`` of the chain, so the other
+    side of a narrow gap on the same part is never taken for this side."""
     V = part.vertices
     e = np.concatenate([faces[:, [0, 1]], faces[:, [1, 2]], faces[:, [2, 0]]])
     lengths = np.linalg.norm(V[e[:, 0]] - V[e[:, 1]], axis=1)
     graph = sp.csr_matrix((lengths, (e[:, 0], e[:, 1])), shape=(len(V), len(V)))
     distance = dijkstra(graph, directed=False, indices=chain_vertices, min_only=True, limit=limit)
-    index = np.flatnonzero(np.isfinite(distance))
-    return V[index], index
+    return V[np.isfinite(distance)]
 
 
 def _chain_tangents(P: np.ndarray, closed: bool) -> np.ndarray:
     if closed:
         return np.roll(P, -1, axis=0) - np.roll(P, 1, axis=0)
     return np.gradient(P, axis=0)
-
-
-def _vertex_normals(part: Part, faces: np.ndarray) -> np.ndarray:
-    """Area-weighted vertex normals of ``faces`` (unnormalised)."""
-    V = part.vertices
-    n = np.cross(V[faces[:, 1]] - V[faces[:, 0]], V[faces[:, 2]] - V[faces[:, 0]])
-    out = np.zeros_like(V)
-    for k in range(3):
-        np.add.at(out, faces[:, k], n)
-    return out
 
 
 def _unit(v: np.ndarray) -> np.ndarray:

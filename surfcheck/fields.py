@@ -34,20 +34,22 @@ class VertexField:
     unit: str
     signed: bool
     description: str
+    radius: float = float("nan")  # neighbourhood radius of the fits that gave it (part units)
 
 
-def _values(V: np.ndarray, F: np.ndarray, quantities, radius: float | None) -> dict[str, np.ndarray]:
-    """The named fields; the jet fits and the jump fits each run once, whatever is asked of them."""
+def _values(V: np.ndarray, F: np.ndarray, quantities, radius: float | None) -> dict[str, tuple[np.ndarray, float]]:
+    """The named fields and the neighbourhood radius of each; the jet fits and the jump fits each run
+    once, whatever is asked of them."""
     unknown = [q for q in quantities if q not in QUANTITIES]
     if unknown:
         raise InputError(f"unknown quantity {unknown[0]!r}: choose one of {', '.join(QUANTITIES)}")
     out = {}
     if any(q in _CURVATURES for q in quantities):
         c = principal_curvatures(V, F, radius)
-        out.update(k1=c.k1, k2=c.k2, mean=c.mean, gaussian=c.gaussian)
+        out.update({q: (v, c.radius) for q, v in zip(_CURVATURES, (c.k1, c.k2, c.mean, c.gaussian))})
     if any(q in _JUMPS for q in quantities):
         jumps = jump_fields(V, F, radius)
-        out.update({"jump": jumps.curvature, "tangent-jump": jumps.tangent})
+        out.update({"jump": (jumps.curvature, jumps.radius), "tangent-jump": (jumps.tangent, jumps.radius)})
     return {q: out[q] for q in quantities}
 
 
@@ -60,7 +62,7 @@ def field_values(
     jump and tangent-jump from the one-sided fits (surfcheck.jumpfield.jump_fields). ``radius`` is the
     neighbourhood radius in part units (None: the default rule). NaN marks vertices without a value.
     """
-    values = _values(V, F, [quantity], radius)[quantity]
+    values, _ = _values(V, F, [quantity], radius)[quantity]
     return values, QUANTITIES[quantity][0].format(u=units)
 
 
@@ -68,9 +70,9 @@ def vertex_fields(part: Part, quantities, radius: float | None = None) -> dict[s
     """Several named fields of a part (see QUANTITIES), sharing their fits."""
     values = _values(part.vertices, part.faces, list(quantities), radius)
     out = {}
-    for quantity, v in values.items():
+    for quantity, (v, used) in values.items():
         unit, signed, description = QUANTITIES[quantity]
-        out[quantity] = VertexField(quantity, v, unit.format(u=part.units), signed, description)
+        out[quantity] = VertexField(quantity, v, unit.format(u=part.units), signed, description, used)
     return out
 
 

@@ -26,6 +26,8 @@ PERCENTILES = (2.0, 98.0)  # colour limits; common practice, no published source
 TILT_DEG = 30.0  # views are tilted this far out of the best-facing direction; common practice
 CANDIDATE_DIRECTIONS = 400
 DPI = 100
+AMBIENT = 0.45  # share of a surface's colour kept where it faces away from the light
+TUBE_PIXELS = 2.5  # seam tubes are this many pixels in radius in every view, station balls 2.5 times
 
 
 @dataclass(frozen=True)
@@ -63,6 +65,20 @@ def colour_limits(values: np.ndarray, signed: bool) -> tuple[float, float]:
         return -bound, bound
     low, high = (float(p) for p in np.percentile(finite, PERCENTILES))
     return (low, high) if high > low else (low, low + 1e-12)
+
+
+def limits_text(signed: bool, where: str = "") -> str:
+    """How colour_limits chose its limits, in words (``where``: of which values, e.g. "within 8 mm
+    of seam-2")."""
+    low, high = PERCENTILES
+    rule = f"{_ordinal(high)} percentile of |value|" if signed else f"{_ordinal(low)} to {_ordinal(high)} percentile"
+    return f"{rule} {where}".strip()
+
+
+def _ordinal(x: float) -> str:
+    n = int(round(x))
+    suffix = "th" if 10 <= n % 100 <= 20 else {1: "st", 2: "nd", 3: "rd"}.get(n % 10, "th")
+    return f"{x:g}{suffix}"
 
 
 # ---------------------------------------------------------------- choosing views
@@ -163,9 +179,10 @@ def _surface(pv, V: np.ndarray, F: np.ndarray):
     return pv.PolyData(np.asarray(V, dtype=float), cells)
 
 
-def _add_seam(pv, plotter, seam: SeamOverlay, radius: float) -> None:
+def _add_seam(pv, plotter, seam: SeamOverlay, radius: float) -> list:
     """Each run of equal status along the seam as one tube of that status's colour; station markers
-    as balls."""
+    as balls. Returns the actors added."""
+    actors = []
     status = list(seam.status)
     start = 0
     for i in range(1, len(status) + 1):
@@ -173,12 +190,13 @@ def _add_seam(pv, plotter, seam: SeamOverlay, radius: float) -> None:
             points = seam.points[start:min(i + 1, len(status))]
             if len(points) >= 2:
                 tube = pv.lines_from_points(points).tube(radius=radius, n_sides=16)
-                plotter.add_mesh(tube, color=STATUS_COLOURS.get(status[start], "#000000"), ambient=0.3)
+                actors.append(plotter.add_mesh(tube, color=STATUS_COLOURS.get(status[start], "#000000"), lighting=False))
             start = i
     if seam.markers is not None:
         for point, state in zip(np.atleast_2d(seam.markers), seam.marker_status):
-            ball = pv.Sphere(radius=1.7 * radius, center=point, theta_resolution=16, phi_resolution=12)
-            plotter.add_mesh(ball, color=STATUS_COLOURS.get(state, "#000000"), ambient=0.3)
+            ball = pv.Sphere(radius=2.5 * radius, center=point, theta_resolution=16, phi_resolution=12)
+            actors.append(plotter.add_mesh(ball, color=STATUS_COLOURS.get(state, "#000000"), lighting=False))
+    return actors
 
 
 def _camera(view: View, V: np.ndarray, aspect: float) -> tuple[list, float]:
@@ -205,22 +223,29 @@ def render_views(V: np.ndarray, F: np.ndarray, values: np.ndarray, views: list[V
     V = np.asarray(V, dtype=float)
     surface = _surface(pv, V, F)
     surface.point_data["field"] = np.where(np.isfinite(values), values, np.nan)
-    plotter = pv.Plotter(off_screen=True, window_size=list(pixels), border=False)
+    plotter = pv.Plotter(off_screen=True, window_size=list(pixels), border=False, lighting="none")
     plotter.set_background("white")
+    # one light at the eye, with an ambient part: a face seen square-on shows its colour-bar colour,
+    # an oblique one is darker by up to 1 - AMBIENT
+    light = pv.Light(light_type="headlight", intensity=1.0)
+    light.ambient_color = "white"
+    plotter.add_light(light)
     plotter.add_mesh(surface, scalars="field", cmap=cmap, clim=limits, nan_color="#c8c8c8", show_scalar_bar=False,
-                     smooth_shading=True, ambient=0.35, diffuse=0.65, specular=0.0)
+                     smooth_shading=True, ambient=AMBIENT, diffuse=1.0 - AMBIENT, specular=0.0)
     diagonal = float(np.linalg.norm(np.ptp(V, axis=0)))
-    for seam in seams:
-        _add_seam(pv, plotter, seam, 0.003 * diagonal)
     plotter.enable_parallel_projection()
     images = []
     for view in views:
         position, half = _camera(view, V, pixels[0] / pixels[1])
+        pixel = 2.0 * half / pixels[1]  # world length of one pixel
+        actors = [a for seam in seams for a in _add_seam(pv, plotter, seam, TUBE_PIXELS * pixel)]
         plotter.camera_position = position
         plotter.camera.parallel_scale = half
         plotter.camera.clipping_range = (1e-3 * diagonal, 5.0 * diagonal)
         plotter.render()
         images.append(plotter.screenshot(return_img=True))
+        for actor in actors:
+            plotter.remove_actor(actor, render=False)
     plotter.close()
     return images
 
@@ -228,10 +253,11 @@ def render_views(V: np.ndarray, F: np.ndarray, values: np.ndarray, views: list[V
 def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | os.PathLike, *,
                  quantity: str, unit: str, signed: bool, seams: list[SeamOverlay] | None = None,
                  title: str = "", views: list[View] | None = None, limits: tuple[float, float] | None = None,
-                 size: tuple[int, int] = (1600, 800)) -> Path:
+                 limits_rule: str = "", size: tuple[int, int] = (1600, 800)) -> Path:
     """Write a PNG of a per-vertex field: the views (default: overview_views) side by side, one colour
     bar titled with the quantity and its unit, the colour limits stated under it, and a legend of
-    the seam statuses when seams are drawn. ``size`` is the picture's size in pixels."""
+    the seam statuses when seams are drawn. ``limits`` default to colour_limits of all values; given,
+    ``limits_rule`` says how they were chosen. ``size`` is the picture's size in pixels."""
     import matplotlib
 
     matplotlib.use("Agg")
@@ -241,6 +267,7 @@ def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | o
     values = np.asarray(values, dtype=float)
     seams = seams or []
     views = views or overview_views(np.asarray(V, float), np.asarray(F))
+    given = limits
     limits = limits or colour_limits(values, signed)
     cmap = "RdBu_r" if signed else "viridis"
     width, height = size
@@ -264,10 +291,11 @@ def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | o
     bar.ax.tick_params(labelsize=12)
     bar.ax.xaxis.set_major_formatter(matplotlib.ticker.FormatStrFormatter("%.3g"))
     bar.set_label(f"{quantity} [{unit}]", fontsize=13)
-    low, high = PERCENTILES
-    rule = (f"|value| {high:g}th percentile" if signed else f"{low:g}th to {high:g}th percentile")
+    rule = limits_rule or (limits_text(signed) if given is None else "as chosen by the caller")
     stated = f"colour limits {limits[0]:.3g} .. {limits[1]:.3g} {unit} ({rule}); "
     stated += f"field range {finite.min():.3g} .. {finite.max():.3g}" if finite.size else "no finite values"
+    if finite.size < values.size:
+        stated += "; grey: no value"
     fig.text(pad / width, 8 / height, stated, fontsize=11, ha="left", va="bottom")
     if seams:
         handles = [Patch(color=c, label=f"seam {s}") for s, c in STATUS_COLOURS.items()]

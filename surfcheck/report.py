@@ -20,7 +20,7 @@ import numpy as np
 from surfcheck import __version__
 from surfcheck.continuity import ORDERS, SeamGrade
 from surfcheck.errors import InputError
-from surfcheck.fields import vertex_fields
+from surfcheck.fields import VertexField, vertex_fields
 from surfcheck.io import LoadResult, write_atomic
 from surfcheck.page import Picture, review_page
 from surfcheck.part import Part
@@ -73,6 +73,32 @@ def check_folder(path: str | Path) -> Path:
     if path.exists() and not path.is_dir():
         raise InputError(f"{path}: exists and is not a folder; give another report folder")
     return path
+
+
+def _near(V: np.ndarray, points: np.ndarray, radius: float) -> np.ndarray:
+    """(n,) bool: the vertex lies within ``radius`` of one of the points."""
+    from scipy.spatial import cKDTree
+
+    if len(points) == 0:
+        return np.zeros(len(V), dtype=bool)
+    return cKDTree(points).query_ball_point(V, radius, return_length=True) > 0
+
+
+def without_boundary_band(part: Part, field: VertexField) -> VertexField:
+    """The field with NaN (drawn grey: no value) at the vertices within its fits' radius of an open
+    boundary: there a one-sided fit across a cut runs out of data and its jump means nothing."""
+    from surfcheck.differential import boundary_vertices
+
+    edge = part.vertices[boundary_vertices(part.faces, part.n_vertices)]
+    band = _near(part.vertices, edge, field.radius) if np.isfinite(field.radius) else np.zeros(part.n_vertices, bool)
+    return replace(field, values=np.where(band, np.nan, field.values))
+
+
+def _grey(field: VertexField) -> str:
+    if not np.isnan(field.values).any():
+        return ""
+    return (f" Grey: no value (within the fits' radius, {field.radius:.2g} {field.unit.split('/')[-1]}, of an open"
+            " boundary).")
 
 
 def _file_name(text: str) -> str:
@@ -137,7 +163,7 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
     """
     from surfcheck.differential import principal_curvatures
     from surfcheck.plots import plot_along_seam, plot_profiles
-    from surfcheck.render import colour_limits, overview_views, render_field, seam_views
+    from surfcheck.render import colour_limits, limits_text, overview_views, render_field, seam_views
 
     out = check_folder(out_dir)
     out.mkdir(parents=True, exist_ok=True)
@@ -151,9 +177,9 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
     part_pictures: list[Picture] = []
     seam_pictures: dict[str, list[Picture]] = {}
     with _Steps(2 + len(PART_QUANTITIES) + 3 * len(grades), quiet) as steps:
-        fields = vertex_fields(part, dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY]))
+        fields = {q: without_boundary_band(part, f)
+                  for q, f in vertex_fields(part, dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY])).items()}
         curvature = principal_curvatures(V, F)
-        limits = {q: colour_limits(f.values, f.signed) for q, f in fields.items()}
         steps.advance("fields")
         overlays = [seam_overlay(c, g, shown_order(g, required)) for c, g in zip(curves, grades)]
         shown = sorted({ORDERS[shown_order(g, required)] for g in grades})
@@ -161,11 +187,11 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
             f = fields[quantity]
             file = f"part-{_file_name(quantity)}.png"
             render_field(V, F, f.values, out / file, quantity=quantity, unit=f.unit, signed=f.signed,
-                         seams=overlays, views=overview_views(V, F), limits=limits[quantity],
+                         seams=overlays, views=overview_views(V, F),
                          title=f"{f.description}: {name}")
             part_pictures.append(Picture(file, f"{f.description} [{f.unit}] over the whole part, from the side"
                                          " that shows most of it and from the other side; seams coloured by"
-                                         f" their per-station result up to {'/'.join(shown)}.",
+                                         f" their per-station result up to {'/'.join(shown)}.{_grey(f)}",
                                          f"{quantity} heatmap of the whole part"))
             steps.advance(quantity)
         for curve, grade, overlay in zip(curves, grades, overlays):
@@ -176,13 +202,16 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
             focus = grade.orders[order].worst_position
             f = fields[SEAM_QUANTITY]
             stem = _file_name(grade.id)
+            radius = CLOSE_UP_EDGES * edge
+            near = _near(V, curve.points, radius)
             render_field(V, F, f.values, out / f"{stem}-map.png", quantity=SEAM_QUANTITY, unit=f.unit,
-                         signed=f.signed, seams=[overlay], limits=limits[SEAM_QUANTITY],
-                         views=seam_views(V, F, curve.points, focus, CLOSE_UP_EDGES * edge, grade.id),
+                         signed=f.signed, seams=[overlay], limits=colour_limits(f.values[near], f.signed),
+                         limits_rule=limits_text(f.signed, f"within {radius:.3g} {part.units} of {grade.id}"),
+                         views=seam_views(V, F, curve.points, focus, radius, grade.id),
                          title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}) over the {f.description}")
             pictures.append(Picture(f"{stem}-map.png", f"{f.description} [{f.unit}] around {grade.id}, facing it;"
                                     f" close-up at the governing station of {ORDERS[order]}. Tube and"
-                                    f" balls (stations): result up to {ORDERS[order]} per station.",
+                                    f" balls (stations): result up to {ORDERS[order]} per station.{_grey(f)}",
                                     f"{grade.id} over the {SEAM_QUANTITY} heatmap"))
             steps.advance(f"{grade.id} picture")
             plot_along_seam(grade, out / f"{stem}-along.png", coverage=profile.coverage)

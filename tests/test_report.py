@@ -1,0 +1,166 @@
+"""The review folder: index.html parses as HTML5, every picture and link it names exists beside it,
+headless Chromium loads it with every picture and renders it, result.json is the document
+`grade --json` prints, and the command line behaves like `grade`."""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+from pathlib import Path
+from urllib.parse import unquote, urlparse
+
+import html5lib
+import numpy as np
+import pytest
+from PIL import Image
+
+from surfcheck.continuity import grade_seam
+from surfcheck.io import save_part
+from surfcheck.report import write_report
+from surfcheck.results import grade_document
+from surfcheck.seams import SeamIndex
+from surfcheck.tolerances import load_profile
+from tests.blend_parts import blend_part
+
+CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if os.path.exists("/usr/bin/chromium") else None)
+STATIONS = 3
+PARAMETERS = {"stations": STATIONS, "spacing": None, "seams": ["all"]}
+
+
+def run_cli(*args: str) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "surfcheck", *args], capture_output=True, text=True, timeout=600)
+
+
+@pytest.fixture(scope="module")
+def review(tmp_path_factory):
+    """The review of both seams of the circular fillet part, written once."""
+    part = blend_part("fillet")
+    profile = load_profile("general")
+    grades = [grade_seam(part, seam, profile, stations=STATIONS) for seam in SeamIndex(part).seams]
+    out = tmp_path_factory.mktemp("review")
+    page = write_report(part, grades, profile, 2, out, parameters=PARAMETERS, quiet=True)
+    return {"page": page, "out": out, "document": grade_document(part, grades, profile, 2, PARAMETERS)}
+
+
+def references(page: Path) -> list[tuple[str, str]]:
+    """(tag, address) of every src and href in the page, parsed by html5lib's strict HTML5 parser
+    (which raises on any parse error: the WHATWG HTML standard's parsing rules)."""
+    tree = html5lib.HTMLParser(strict=True, namespaceHTMLElements=False).parse(page.read_bytes())
+    return [(el.tag, el.get(attr)) for el in tree.iter() for attr in ("src", "href") if el.get(attr) is not None]
+
+
+def test_page_parses_as_html5_and_names_only_files_beside_it(review):
+    refs = references(review["page"])
+    files = [address for _, address in refs if not address.startswith("#")]
+    images = [address for tag, address in refs if tag == "img"]
+    assert len(images) == 2 + 3 * 2  # two whole-part maps, three pictures per seam
+    assert "result.json" in files
+    for address in files:
+        parsed = urlparse(address)
+        assert not parsed.scheme and not parsed.netloc, address  # nothing from outside
+        assert (review["out"] / unquote(parsed.path)).is_file(), address
+    anchors = {address[1:] for _, address in refs if address.startswith("#")}
+    tree = html5lib.parse(review["page"].read_bytes(), namespaceHTMLElements=False)
+    ids = {el.get("id") for el in tree.iter() if el.get("id")}
+    assert anchors <= ids  # every in-page link has its target
+    assert not [el for el in tree.iter() if el.tag in ("script", "link", "iframe")]  # self-contained
+
+
+def test_page_states_verdict_seams_parameters_and_caution(review):
+    text = review["page"].read_text(encoding="utf-8")
+    document = review["document"]
+    for seam in document["seams"]:
+        assert f'id="{seam["id"]}"' in text
+    assert f"Requirement G2: {document['verdict']}" in text
+    assert document["caution"][:60] in text
+    assert "surfcheck 0." in text and "numpy" in text  # tool and library versions
+
+
+def test_result_json_is_the_grade_document(review):
+    written = json.loads((review["out"] / "result.json").read_text())
+    assert written == json.loads(json.dumps(review["document"]))
+
+
+def test_pictures_are_pngs_that_are_not_blank(review):
+    for path in review["out"].glob("*.png"):
+        image = np.asarray(Image.open(path).convert("RGB")).astype(float)
+        assert image.std() > 20.0, path.name  # common practice, no published source
+
+
+def chromium(*args: str, timeout: int = 120) -> subprocess.CompletedProcess:
+    with tempfile.TemporaryDirectory() as profile:
+        flags = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                 "--disable-background-networking", "--disable-component-update", "--disable-sync",
+                 f"--user-data-dir={profile}"]
+        return subprocess.run([CHROMIUM, *flags, *args], capture_output=True, text=True, timeout=timeout)
+
+
+@pytest.fixture
+def browser():
+    if CHROMIUM is None:
+        if os.environ.get("CI"):
+            pytest.fail("chromium is missing in CI: .ci/run installs the Debian package `chromium`")
+        pytest.skip("chromium is not installed (apt-get install chromium)")
+    return chromium
+
+
+def test_chromium_loads_every_picture(review, browser, tmp_path):
+    """A page beside the review loads it in a frame and lists each picture Chromium decoded (complete,
+    with a natural width) or failed to; --dump-dom prints the list once the loads are done."""
+    harness = tmp_path / "harness.html"
+    harness.write_text(
+        '<!DOCTYPE html><html><head><meta charset="utf-8"><title>check</title></head><body><pre id="out">pending</pre>'
+        f'<iframe id="page" src="{review["page"].as_uri()}"></iframe><script>'
+        'document.getElementById("page").addEventListener("load", function () {'
+        '  var images = this.contentDocument.images, out = [];'
+        '  for (var i = 0; i < images.length; i++) {'
+        '    out.push((images[i].complete && images[i].naturalWidth > 0 ? "loaded " : "missing ") + images[i].getAttribute("src"));'
+        '  }'
+        '  document.getElementById("out").textContent = "images " + images.length + "\\n" + out.join("\\n");'
+        "});</script></body></html>", encoding="utf-8")
+    run = browser("--allow-file-access-from-files", "--virtual-time-budget=20000", "--dump-dom", harness.as_uri())
+    listing = run.stdout.split('<pre id="out">', 1)[-1].split("</pre>", 1)[0].splitlines()
+    assert listing[0] == "images 8", run.stdout[-2000:] + run.stderr[-2000:]
+    assert all(line.startswith("loaded ") for line in listing[1:]), listing
+
+
+def test_chromium_screenshot_is_not_blank(review, browser, tmp_path):
+    shot = tmp_path / "page.png"
+    run = browser(f"--screenshot={shot}", "--window-size=1280,2400", review["page"].as_uri())
+    assert shot.is_file(), run.stderr[-2000:]
+    image = np.asarray(Image.open(shot).convert("RGB")).astype(float)
+    assert image.shape[:2] == (2400, 1280)
+    assert image.std() > 20.0  # text, tables and pictures; a page that failed to load is one colour
+    assert (image.min(axis=2) < 128).mean() > 0.02  # a fair share of dark pixels: text and pictures
+
+
+def test_report_command_writes_the_review_and_exits_like_grade(tmp_path):
+    part = tmp_path / "fillet.obj"
+    save_part(blend_part("fillet"), part)
+    args = [str(part), "--seam", "a:blend", "--stations", str(STATIONS), "--require", "G3"]
+    graded = run_cli("grade", *args, "--json")
+    out = tmp_path / "review"
+    reported = run_cli("report", *args, "--out", str(out))
+    assert graded.returncode in (0, 1), graded.stderr
+    assert reported.returncode == graded.returncode, reported.stderr  # exit codes as grade's: 0 pass, 1 fail
+    assert json.loads((out / "result.json").read_text()) == json.loads(graded.stdout)
+    assert (out / "index.html").is_file() and "review page:" in reported.stdout
+    again = run_cli("grade", *args, "--json", "--report", str(tmp_path / "again"))
+    assert again.returncode == graded.returncode
+    assert json.loads(again.stdout) == json.loads(graded.stdout)  # stdout stays one JSON document
+    assert (tmp_path / "again" / "index.html").is_file()
+
+
+def test_report_into_a_file_is_a_one_line_error(tmp_path):
+    part = tmp_path / "fillet.obj"
+    save_part(blend_part("fillet"), part)
+    taken = tmp_path / "taken"
+    taken.write_text("keep me")
+    run = run_cli("report", str(part), "--seam", "all", "--out", str(taken))
+    assert run.returncode == 2
+    assert run.stderr.startswith("error: ") and len(run.stderr.strip().splitlines()) == 1
+    assert taken.read_text() == "keep me"

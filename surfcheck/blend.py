@@ -322,3 +322,15 @@ def _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_
         other = "itself" if np.all(group == w.patch_group) else "the parts"
         problems.append(f"the patch intersects {other} near {where(hits[:, 0] - w.patch_faces[0])}")
     return problems
+
+
+def prove_blend(merged: MergedBlend, profile) -> list:
+    """Grade the patch's two new seams with the continuity estimator: the evidence of its order."""
+    from surfcheck.continuity import grade_seam
+
+    return [grade_seam(merged.part, seam, profile.in_units(merged.part.units)) for seam in (merged.seam_a, merged.seam_b)]
+
+
+def patch_part(blend: BlendResult, units: str, source: str = "blend") -> Part:
+    """The patch alone as a Part with one group, ``blend``."""
+    return Part(blend.vertices, blend.faces, np.zeros(len(blend.faces), dtype=np.int64), ("blend",), units, source)

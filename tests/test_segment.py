@@ -178,7 +178,7 @@ def test_no_seams_found_is_a_clear_error():
 
 
 def test_sphere_cone_cylinder_and_plane_of_a_revolved_knob():
-    truth, profile = knob()
+    truth, profile = knob(segments=120, spacing=1.0)
     scan, _ = scanned(truth, NOISE, seed=6)
     seg = segment_part(scan)
     assert kind_counts(seg) == {"sphere": 1, "cone": 1, "cylinder": 1, "plane": 1}  # construction

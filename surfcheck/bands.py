@@ -20,6 +20,7 @@ BAND_ACROSS = 0.5  # band piece: median |border tangent . steepest direction| un
 TANGENT_DEG = 12.0  # band piece: median angle between the normals across its borders under this
 BORDER_STEPS = 4  # face-ring averaging steps of the cost when a band's borders are placed
 BORDER_MADS = 6.0  # a face keeps its border faces while their averaged cost stays within 6 MADs
+STRAIGHTEN_WINDOW = 7  # stations in the running median of a border's thresholds (7 x 2 scales long)
 STRAIGHTEN_REACH = 3.0  # scales either side of a band border that are relabelled when it is straightened
 
 def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None]) -> np.ndarray:
@@ -162,8 +163,10 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
     vertices) and a direction across the border in the surface; faces of either group within
     STRAIGHTEN_REACH scales get an across coordinate s from their station. At each station the
     threshold on s that disagrees with the fewest current labels is taken (a one-dimensional
-    classification), the thresholds are median-filtered along the border, and the faces are relabelled
-    by them: the border keeps its place but loses the staircase that noise leaves in per-face decisions.
+    classification), the thresholds get a running median of STRAIGHTEN_WINDOW stations along the border
+    and are moved onto the nearest vertex's coordinate (so that on a structured triangulation the
+    border follows a row of edges instead of zigzagging through it), and the faces are relabelled by
+    them: the border keeps its place but loses the staircase that noise leaves in per-face decisions.
     """
     in_band, in_side = label == band, label == side
     on_band = np.zeros(len(mesh.V), dtype=bool)
@@ -189,7 +192,8 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
     across /= np.maximum(np.linalg.norm(across, axis=1, keepdims=True), 1e-300)
     s = np.einsum("ij,ij->i", mesh.centroids[cand] - centre[station_of], across[station_of])
     vote = np.bincount(station_of, weights=np.where(in_band[cand], s, -s), minlength=len(stations))
-    s *= np.where(vote[station_of] < 0, -1.0, 1.0)  # s > 0 on the band's side at every station
+    flip = np.where(vote < 0, -1.0, 1.0)  # so that s > 0 on the band's side at every station
+    s *= flip[station_of]
     threshold = np.zeros(len(stations))
     for k in range(len(stations)):
         mine = station_of == k
@@ -199,8 +203,14 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
         wrong = np.concatenate([[0], np.cumsum(ys)]) + np.concatenate([np.cumsum((~ys)[::-1])[::-1], [0]])
         i = int(np.argmin(wrong))
         threshold[k] = 0.0 if not len(ss) else (ss[i - 1] + ss[i]) / 2 if 0 < i < len(ss) else ss[min(i, len(ss) - 1)]
-    padded = np.concatenate([threshold[:1], threshold, threshold[-1:]])
-    threshold = np.median(np.stack([padded[:-2], padded[1:-1], padded[2:]]), axis=0)
+    half = STRAIGHTEN_WINDOW // 2
+    padded = np.concatenate([np.repeat(threshold[:1], half), threshold, np.repeat(threshold[-1:], half)])
+    threshold = np.median(np.lib.stride_tricks.sliding_window_view(padded, 2 * half + 1), axis=1)
+    for k in range(len(stations)):  # onto the nearest vertex, so the border runs along mesh edges there
+        corners = np.unique(mesh.F[cand[station_of == k]])
+        if len(corners):
+            at = flip[k] * ((mesh.V[corners] - centre[k]) @ across[k])
+            threshold[k] = at[np.argmin(np.abs(at - threshold[k]))]
     out = label.copy()
     out[cand] = np.where(s < threshold[station_of], side, band)
     return out

@@ -71,6 +71,7 @@ class ScanMesh:
         return near & (self.angle(model) < limit)
 
     def cost(self, model: Primitive) -> np.ndarray:
+        """(m,) squared distance and normal residuals of each face to the model, in noise units."""
         return (self.distance(model) / self.noise) ** 2 + (self.angle(model) / self.normal_noise) ** 2
 
 
@@ -97,6 +98,8 @@ def roughness_deg(part: Part, adjacency: sp.csr_matrix) -> float:
 
 
 def prepare_mesh(part: Part, scale: float | None, noise: float | None) -> ScanMesh:
+    """The arrays of ``part`` for segmentation: jets at radius ``scale`` (default SCALE_EDGES median
+    edges), noise level (default: estimated), the normal's noise; InputError on a noise cloud."""
     adjacency = face_adjacency(part)
     rough = roughness_deg(part, adjacency)
     if rough > MAX_ROUGHNESS_DEG:

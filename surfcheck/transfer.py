@@ -135,7 +135,7 @@ class Target:
     @classmethod
     def of(cls, nominal: Part) -> "Target":
         normals = trimesh.Trimesh(nominal.vertices, nominal.faces, process=False).vertex_normals
-        return cls(nominal.vertices, normals, cKDTree(nominal.vertices), 1e-6 * nominal.diagonal)
+        return cls(nominal.vertices, normals, cKDTree(nominal.vertices), 1e-5 * nominal.diagonal)
 
     def icp(self, source: np.ndarray, start: np.ndarray, iterations: int):
         return _icp(source, self.tree, self.vertices, self.normals, start, iterations, self.tolerance)

@@ -167,3 +167,12 @@ def boss_on_plate(segments: int = 160, spacing: float = 0.8) -> tuple[Part, Prof
              ("line", 10), ("corner", -90), ("line", 40)]
     profile = turtle_profile((0, 30), 0, steps, spacing)
     return revolve(profile, segments), profile
+
+
+def knob(segments: int = 160, spacing: float = 0.8) -> tuple[Part, Profile]:
+    """A revolved knob: a spherical cap (radius 12, 40 degrees), a sharp edge, a cone (half-angle 30
+    degrees: the profile heads 60 degrees down), a sharp edge, a cylinder, a sharp edge, a flat base."""
+    steps = [("arc", 12, -40), ("corner", -20), ("line", 12), ("corner", -30), ("line", 8), ("corner", -90)]
+    to_axis = float(turtle_profile((0, 20), 0, steps, spacing).points[-1, 0])
+    profile = turtle_profile((0, 20), 0, [*steps, ("line", to_axis)], spacing)
+    return revolve(profile, segments), profile

@@ -14,8 +14,10 @@ from rich.console import Console
 from rich.table import Table
 
 from surfcheck.errors import InputError, SurfcheckError
+from surfcheck.results import CAUTION
 from surfcheck.io import read_part
 from surfcheck.seams import SeamIndex
+from surfcheck.selection import select_seams
 from surfcheck.summary import part_summary
 
 app = typer.Typer(
@@ -149,8 +151,12 @@ def grade(
     units: str = UNITS_OPT,
     as_json: bool = JSON_OPT,
     report_dir: Optional[Path] = typer.Option(None, "--report", help="Also write the review page (index.html, pictures, result.json) to this folder."),
+    nominal: Optional[Path] = typer.Option(None, "--nominal", help="A grouped nominal part: align the scan to it and grade by its group names."),
 ) -> None:
-    """Grade G0..G3 continuity across seams, with uncertainty, against a tolerance profile."""
+    """Grade G0..G3 continuity across seams, with uncertainty, against a tolerance profile.
+
+    On a scan without groups, `--seam auto` segments it into faces and fillets first, and `--nominal`
+    labels it from a grouped nominal part."""
     from surfcheck.continuity import grade_seam
     from surfcheck.results import grade_document, parse_requirement
     from surfcheck.tolerances import load_profile
@@ -162,20 +168,16 @@ def grade(
 
         check_folder(report_dir)
     loaded = read_part(part, units=units)
-    index = SeamIndex(loaded.part)
-    chosen = {}
-    for spec in seam:
-        for curve in index.find(spec):
-            if curve.kind != "seam":
-                raise InputError(f"{part}: {curve.id} is a boundary {curve.kind}, not a seam between two groups")
-            chosen.setdefault(curve.id, curve)
+    reference = read_part(nominal, units=units).part if nominal is not None else None
+    chosen = select_seams(loaded.part, list(seam), reference)
     grades = []
-    for curve in _progress(list(chosen.values()), "grading seams", quiet=as_json):
-        grades.append(grade_seam(loaded.part, curve, profile.in_units(loaded.part.units), stations, spacing))
-    parameters = {"stations": stations, "spacing": spacing, "seams": list(seam)}
-    document = grade_document(loaded.part, grades, profile, required, parameters)
+    for curve in _progress(chosen.seams, "grading seams", quiet=as_json):
+        grades.append(grade_seam(chosen.part, curve, profile.in_units(chosen.part.units), stations, spacing))
+    parameters = {"stations": stations, "spacing": spacing, "seams": list(seam),
+                  "nominal": str(nominal) if nominal else None, **chosen.notes}
+    document = grade_document(chosen.part, grades, profile, required, parameters)
     if report_dir is not None:
-        page = write_report(loaded.part, grades, profile, required, report_dir, parameters=parameters,
+        page = write_report(chosen.part, grades, profile, required, report_dir, parameters=parameters,
                             summary=part_summary(loaded), quiet=as_json)
     if as_json:
         print_json(document)
@@ -249,6 +251,89 @@ def blend(
         console.print(f"patch: {len(result.vertices)} vertices, {len(result.faces)} triangles"
                       + (f"; written {', '.join(written)}" if written else ""))
     raise typer.Exit(1 if result.problems or document["verdict"] == "fail" else 0)
+
+
+@app.command()
+def segment(
+    part: Path = PART_ARG,
+    out_file: Path = typer.Option(..., "--out", help="Labelled part to write: .obj (groups) or .ply (group property)."),
+    radius: Optional[float] = typer.Option(None, "--radius", help="Nominal fillet radius to compare each band with."),
+    units: str = UNITS_OPT,
+    as_json: bool = JSON_OPT,
+) -> None:
+    """Split an unlabelled part (a scan) into faces (plane, cylinder, sphere, cone, torus, freeform)
+    and fillet bands, and write it with those groups."""
+    from surfcheck.io import save_part
+    from surfcheck.segment import segment_part
+
+    if out_file.suffix.lower() not in (".obj", ".ply"):
+        raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
+    loaded = read_part(part, units=units)
+    segmentation = segment_part(loaded.part, nominal_radius=radius)
+    save_part(segmentation.part, out_file)
+    document = segmentation.to_json()
+    if as_json:
+        print_json(document)
+        return
+    u = loaded.part.units
+    table = Table("group", "kind", f"area [{u}^2]", f"fit rms [{u}]", "parameters", f"fillet radius [{u}]",
+                  title=f"faces and fillets of {part}")
+    for group in document["groups"]:
+        fillet = group.get("radius") or {}
+        radius_text = ""
+        if fillet.get("mean") is not None:
+            radius_text = f"{fillet['mean']:.4g} ({fillet['min']:.4g} .. {fillet['max']:.4g})"
+            if fillet.get("max_deviation") is not None:
+                radius_text += f", deviation from nominal up to {fillet['max_deviation']:.3g}"
+        table.add_row(group["name"], group["kind"], _fmt(group["area"]),
+                      _fmt(group["fit_residual"]) if group.get("fit_residual") is not None else "",
+                      _parameters(group.get("parameters") or {}), radius_text)
+    console.print(table)
+    for note in document.get("notes", []):
+        console.print(f"note: {note}")
+    console.print(f"labelled part written to {out_file}")
+    console.print(f"[dim]{CAUTION}[/dim]")
+
+
+def _parameters(parameters: dict) -> str:
+    def show(value):
+        if isinstance(value, (list, tuple)):
+            return "(" + ", ".join(f"{v:.3g}" for v in value) + ")"
+        return f"{value:.4g}" if isinstance(value, float) else str(value)
+
+    return "; ".join(f"{k} {show(v)}" for k, v in parameters.items())
+
+
+@app.command()
+def transfer(
+    nominal: Path = typer.Argument(..., help="The nominal part, with face groups."),
+    scan: Path = typer.Argument(..., help="The scanned part, without groups."),
+    out_file: Path = typer.Option(..., "--out", help="Labelled scan to write: .obj or .ply."),
+    units: str = UNITS_OPT,
+    as_json: bool = JSON_OPT,
+) -> None:
+    """Align a scan to its nominal part (principal axes, then ICP) and give each scan triangle the group
+    of the nearest nominal triangle."""
+    from surfcheck.io import save_part
+    from surfcheck.transfer import align, transfer_groups
+
+    if out_file.suffix.lower() not in (".obj", ".ply"):
+        raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
+    reference = read_part(nominal, units=units).part
+    if len(reference.group_names) < 2:
+        raise InputError(f"{nominal}: the nominal part has no face groups to carry over")
+    measured = read_part(scan, units=units).part
+    alignment = align(measured, reference)
+    labelled = transfer_groups(reference, measured, alignment)
+    save_part(labelled, out_file)
+    document = {"alignment": alignment.to_json(), "groups": list(labelled.group_names), "out": str(out_file)}
+    if as_json:
+        print_json(document)
+        return
+    a = document["alignment"]
+    console.print(f"aligned {scan} to {nominal}: rms distance {a['rms']:.4g} {measured.units}, inliers"
+                  f" {100 * a['inlier_fraction']:.1f} %, {a['iterations']} iterations")
+    console.print(f"{len(labelled.group_names)} groups carried over; labelled scan written to {out_file}")
 
 
 def _one_chain(index: SeamIndex, spec: str, where: Path):

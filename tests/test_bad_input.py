@@ -63,13 +63,30 @@ BAD = ["empty", "truncated", "garbage", "huge_ply", "nan", "non_manifold", "no_f
        "folder", "missing"]
 
 
-@pytest.mark.parametrize("command", ["inspect", "loops"])
+SAMPLE = Path(__file__).resolve().parents[1] / "sample_meshes" / "housing.obj"
+# Every command that reads a part; {p} is the bad file, {o} an output path.
+COMMANDS = {
+    "inspect": ["inspect", "{p}"],
+    "loops": ["loops", "{p}"],
+    "grade": ["grade", "{p}", "--seam", "all"],
+    "map": ["map", "{p}", "--out", "{o}.csv"],
+    "report": ["report", "{p}", "--seam", "all", "--out", "{o}"],
+    "blend": ["blend", "{p}", "--from", "chain-1.1", "--to", "chain-1.2", "--order", "2"],
+    "segment": ["segment", "{p}", "--out", "{o}.obj"],
+    "transfer": ["transfer", str(SAMPLE), "{p}", "--out", "{o}.obj"],
+}
+FULL = ("inspect", "loops")  # every bad file; the other commands share the loader, so a sample of them
+SOME = ["garbage", "nan", "non_manifold", "folder", "missing"]
+
+
+@pytest.mark.parametrize("command", list(COMMANDS))
 def test_bad_inputs_exit_2_with_one_line(tmp_path, command):
     files = _bad_files(tmp_path)
-    for key in BAD:
+    for key in BAD if command in FULL else SOME:
         path = files[key]
         before = digest(path)
-        result = run_cli(command, str(path))
+        args = [a.format(p=path, o=tmp_path / "out") for a in COMMANDS[command]]
+        result = run_cli(*args)
         assert result.returncode == 2, (key, result.stderr)
         lines = result.stderr.strip().splitlines()
         assert len(lines) == 1 and lines[0].startswith("error: "), (key, result.stderr)
@@ -86,6 +103,32 @@ def test_huge_ply_header_fails_fast_without_allocating(tmp_path):
 
 def test_unknown_option_is_a_usage_error():
     assert run_cli("inspect", "--no-such-option", "x.stl").returncode == 2
+
+
+@pytest.mark.parametrize("args, message", [
+    (["grade", str(SAMPLE), "--seam", "top:no-such-group"], "no group named 'no-such-group'"),
+    (["grade", str(SAMPLE), "--seam", "flange:top"], "do not meet"),
+    (["grade", str(SAMPLE), "--seam", "loop-1"], "not a seam"),
+    (["grade", str(SAMPLE), "--seam", "all", "--require", "G7"], "--require"),
+    (["grade", str(SAMPLE), "--seam", "all", "--tolerance", "lenient"], "unknown tolerance profile"),
+    (["blend", str(SAMPLE), "--from", "chain-1.1", "--to", "chain-1.1", "--order", "2"], "same"),
+    (["blend", str(SAMPLE), "--from", "chain-1.1", "--to", "chain-1.2", "--order", "4"], "order"),
+    (["blend", str(SAMPLE), "--from", "seam-1", "--to", "chain-1.2", "--order", "2"], "not a boundary chain"),
+    (["map", str(SAMPLE), "--quantity", "torsion", "--out", "x.png"], "unknown quantity"),
+])
+def test_bad_requests_on_a_good_part_exit_2(args, message):
+    before = digest(SAMPLE)
+    result = run_cli(*args)
+    assert result.returncode == 2, result.stderr
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("error: ") and message in lines[0], result.stderr
+    assert digest(SAMPLE) == before
+
+
+@pytest.mark.parametrize("command", ["", *COMMANDS, "demo"])
+def test_every_command_has_help(command):
+    result = run_cli(*([command] if command else []), "--help")
+    assert result.returncode == 0 and "Usage" in result.stdout
 
 
 _SEEDS = {

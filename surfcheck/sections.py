@@ -17,6 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy.spatial import cKDTree
+from scipy.stats import f as f_dist
 
 from surfcheck.errors import InputError
 from surfcheck.part import Part
@@ -25,6 +26,7 @@ from surfcheck.seams import Curve
 STRIP_EDGES = 6.0  # default half-width of the strip along the seam, in typical edge lengths
 REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
 MAX_STATIONS = 48  # default number of stations on a long seam
+SEAM_FIT_EDGES = 20.0  # the seam is fitted over the strip and this many edge lengths beyond
 _SEAM_FIT_DEGREE = 5
 
 
@@ -136,13 +138,13 @@ def cut_sections(
     groups = (part.group_index(group_a), part.group_index(group_b))
     sections = []
     for index, s in enumerate(positions):
-        frame = polyline.local_fit(s, strip + 4.0 * h)
+        frame = polyline.local_fit(s, strip + SEAM_FIT_EDGES * h)
         radius = np.hypot(reach, strip) * 1.05
         mapped = []
         for tree, ids in zip(trees, (ids_a, ids_b)):
             near = ids[tree.query_ball_point(frame.origin, radius)]
-            coords, along = frame.carry(V[near])
-            inside = polyline.within(s, along, 0.5 * h) & (np.abs(along) <= strip)
+            coords, along, beside = frame.carry(V[near])
+            inside = beside & polyline.within(s, along, 0.5 * h) & (np.abs(along) <= strip)
             mapped.append((near[inside], coords[inside]))
         (near_a, rel_a), (near_b, rel_b) = mapped
         if len(near_a) == 0 or len(near_b) == 0:
@@ -187,9 +189,10 @@ class _SeamFrame:
         c = np.polynomial.polynomial.polyder(self.coef, derivative) / self.scale**derivative if derivative else self.coef
         return np.polynomial.polynomial.polyval(tau / self.scale, c).T
 
-    def carry(self, points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Points carried along the seam into the station's plane, relative to the origin (n, 3), and
-        their signed arc length from the station along the seam (n,)."""
+    def carry(self, points: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Points carried along the seam into the station's plane, relative to the origin (n, 3), their
+        signed arc length from the station along the seam (n,), and whether their foot point lies
+        inside the fitted stretch of the seam (n,) (the others are not beside it)."""
         tau = (points - self.origin) @ self.tangent
         for _ in range(4):  # Newton on (c(tau) - p) . c'(tau) = 0: the foot point on the seam
             c, d1, d2 = (self._eval(tau, k) for k in range(3))
@@ -204,7 +207,9 @@ class _SeamFrame:
         w = np.cross(t, self.tangent)
         cw = np.cross(w, offset)
         carried = offset + cw + np.cross(w, cw) / (1.0 + t @ self.tangent)[:, None]
-        return carried, tau * speed
+        lo, hi = self.span
+        beside = (tau > lo) & (tau < hi) & (np.abs(np.einsum("ij,ij->i", offset, t)) <= 1e-6 * self.scale)
+        return carried, tau * speed, beside
 
 
 class _SeamPolyline:
@@ -231,9 +236,8 @@ class _SeamPolyline:
         pts, rel = self.points[near], rel[near]
         order = np.argsort(rel)
         pts, rel = pts[order], rel[order]
-        degree = int(min(_SEAM_FIT_DEGREE, len(rel) - 1))
         scale = max(float(np.abs(rel).max()), 1e-300)
-        coef = np.polynomial.polynomial.polyfit(rel / scale, pts, degree)
+        coef = _smooth_fit(rel / scale, pts)
         origin = np.polynomial.polynomial.polyval(0.0, coef)
         tangent = coef[1] / np.linalg.norm(coef[1])
         return _SeamFrame(coef, scale, origin, tangent, (float(rel[0]), float(rel[-1])))
@@ -244,6 +248,26 @@ class _SeamPolyline:
         if self.closed:
             return np.ones(len(along), dtype=bool)
         return (s + along >= -margin) & (s + along <= self.length + margin)
+
+
+def _smooth_fit(x: np.ndarray, pts: np.ndarray) -> np.ndarray:
+    """Polynomial coefficients (deg+1, 3) of the seam's points against x: the lowest degree up to
+    _SEAM_FIT_DEGREE that the data support (an F-test against the highest degree at the 1 % level),
+    so that the noise of a scanned seam does not make its fit wiggle."""
+    top = int(min(_SEAM_FIT_DEGREE, len(x) - 2))
+    if top < 1:
+        return np.polynomial.polynomial.polyfit(x, pts, min(1, len(x) - 1))
+    fits = [np.polynomial.polynomial.polyfit(x, pts, d) for d in range(1, top + 1)]
+    rss = [float(((np.polynomial.polynomial.polyval(x, c).T - pts) ** 2).sum()) for c in fits]
+    dof_top = 3 * (len(x) - top - 1)
+    if dof_top <= 0:
+        return fits[-1]
+    sigma2 = max(rss[-1] / dof_top, 1e-300)
+    for d in range(1, top):
+        extra = 3 * (top - d)
+        if (rss[d - 1] - rss[-1]) / extra <= f_dist.ppf(0.99, extra, dof_top) * sigma2:
+            return fits[d - 1]
+    return fits[-1]
 
 
 def _seam_normal(part: Part, vertices: np.ndarray, frame: _SeamFrame, groups: tuple[int, int], radius: float) -> np.ndarray:

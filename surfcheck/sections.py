@@ -16,6 +16,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import dijkstra
 from scipy.spatial import cKDTree
 from scipy.stats import f as f_dist
 
@@ -27,6 +29,9 @@ STRIP_EDGES = 6.0  # default half-width of the strip along the seam, in typical 
 REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
 MAX_STATIONS = 48  # default number of stations on a long seam
 SEAM_FIT_EDGES = 20.0  # the seam is fitted over the strip and this many edge lengths beyond
+MAX_STRIP_TURN = 0.2  # radians the seam may turn across a strip
+GEODESIC_SLACK = 1.5  # data must lie within this many times the ball radius of the station along the mesh
+MAX_SEAM_TURN = 0.5  # radians the seam may turn over its local fit (the fit narrows until it does not)
 _SEAM_FIT_DEGREE = 5
 
 
@@ -138,13 +143,17 @@ def cut_sections(
     groups = (part.group_index(group_a), part.group_index(group_b))
     sections = []
     for index, s in enumerate(positions):
-        frame = polyline.local_fit(s, strip + SEAM_FIT_EDGES * h)
-        radius = np.hypot(reach, strip) * 1.05
+        # along a tightly curved seam the strip narrows until the seam turns by MAX_STRIP_TURN over it
+        turn = polyline.turn_near(s, strip)
+        width = max(h, strip * min(1.0, MAX_STRIP_TURN / turn)) if turn > 0 else strip
+        frame = polyline.local_fit(s, width + SEAM_FIT_EDGES * h, width + 2.0 * h)
+        radius = np.hypot(reach, width) * 1.05
         mapped = []
         for tree, ids in zip(trees, (ids_a, ids_b)):
             near = ids[tree.query_ball_point(frame.origin, radius)]
+            near = near[_reachable(part, near, frame.origin, GEODESIC_SLACK * radius)]
             coords, along, beside = frame.carry(V[near])
-            inside = beside & polyline.within(s, along, 0.5 * h) & (np.abs(along) <= strip)
+            inside = beside & polyline.within(s, along, 0.5 * h) & (np.abs(along) <= width)
             mapped.append((near[inside], coords[inside]))
         (near_a, rel_a), (near_b, rel_b) = mapped
         if len(near_a) == 0 or len(near_b) == 0:
@@ -225,11 +234,15 @@ class _SeamPolyline:
         if not self.length > 0:
             raise InputError("the seam has zero length")
 
-    def local_fit(self, s: float, half_width: float) -> _SeamFrame:
+    def local_fit(self, s: float, half_width: float, least: float) -> _SeamFrame:
+        """A polynomial fit of the seam within ``half_width`` of arc length s, narrowed (not below
+        ``least``) until the seam turns by at most MAX_SEAM_TURN over it."""
         arc = self.arc[: len(self.points)]
         rel = arc - s
         if self.closed:
             rel = (rel + 0.5 * self.length) % self.length - 0.5 * self.length
+        while half_width > least and self._turn(rel, half_width) > MAX_SEAM_TURN:
+            half_width = max(least, 0.7 * half_width)
         near = np.abs(rel) <= half_width
         if near.sum() < 3:
             near = np.argsort(np.abs(rel))[: min(3, len(rel))]
@@ -242,12 +255,46 @@ class _SeamPolyline:
         tangent = coef[1] / np.linalg.norm(coef[1])
         return _SeamFrame(coef, scale, origin, tangent, (float(rel[0]), float(rel[-1])))
 
+    def turn_near(self, s: float, half_width: float) -> float:
+        """How far the seam turns (radians) within half_width of arc length s."""
+        rel = self.arc[: len(self.points)] - s
+        if self.closed:
+            rel = (rel + 0.5 * self.length) % self.length - 0.5 * self.length
+        return self._turn(rel, half_width)
+
+    def _turn(self, rel: np.ndarray, half_width: float) -> float:
+        """How far the seam turns over the stretch |rel| <= half_width: twice the angle between the
+        chords of its two halves (long chords, so that a noisy seam does not seem to turn)."""
+        idx = np.flatnonzero(np.abs(rel) <= half_width)
+        if len(idx) < 3:
+            return 0.0
+        idx = idx[np.argsort(rel[idx])]
+        start, middle, end = self.points[idx[0]], self.points[idx[len(idx) // 2]], self.points[idx[-1]]
+        first, last = middle - start, end - middle
+        cos = first @ last / (np.linalg.norm(first) * np.linalg.norm(last))
+        return 2.0 * float(np.arccos(np.clip(cos, -1.0, 1.0)))
+
     def within(self, s: float, along: np.ndarray, margin: float) -> np.ndarray:
         """Which points, at arc length ``along`` from the station at s, lie beside the seam (an open
         seam ends; data beyond its ends, within ``margin``, belongs to something else)."""
         if self.closed:
             return np.ones(len(along), dtype=bool)
         return (s + along >= -margin) & (s + along <= self.length + margin)
+
+
+def _reachable(part: Part, vertices: np.ndarray, origin: np.ndarray, limit: float) -> np.ndarray:
+    """Which of the vertices lie within ``limit`` of the one nearest ``origin`` along the mesh's
+    edges among them (Dijkstra on the induced subgraph), so that the far side of a small loop or a
+    neighbouring shell within the ball is not taken for this side's data."""
+    if len(vertices) == 0:
+        return np.zeros(0, dtype=bool)
+    sub = part.vertex_adjacency[vertices][:, vertices].tocoo()
+    V = part.vertices
+    lengths = np.linalg.norm(V[vertices[sub.row]] - V[vertices[sub.col]], axis=1)
+    graph = sp.csr_matrix((lengths, (sub.row, sub.col)), shape=(len(vertices), len(vertices)))
+    start = int(np.argmin(np.linalg.norm(V[vertices] - origin, axis=1)))
+    dist = dijkstra(graph, directed=False, indices=start, limit=limit)
+    return np.isfinite(dist)
 
 
 def _smooth_fit(x: np.ndarray, pts: np.ndarray) -> np.ndarray:

@@ -11,6 +11,7 @@ the expanded uncertainty U = k u of JCGM 100:2008 (GUM).
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -135,6 +136,11 @@ def test_grade_json_shape():
         assert key in doc["orders"]["G1"]
     assert doc["orders"]["G1"]["status"] == "fail" and doc["limited_by"] == {"order": "G1", "status": "fail"}
     assert len(doc["station_values"]) == 3 and doc["station_values"][0]["G1"]["status"] == "fail"
+    # the documented schema (docs/grade.schema.json) names exactly these keys
+    schema = json.loads((Path(__file__).parents[1] / "docs" / "grade.schema.json").read_text())
+    assert set(schema["required"]) == set(doc)
+    assert set(schema["$defs"]["station"]["required"]) == set(doc["station_values"][0])
+    assert set(schema["$defs"]["summary"]["required"]) == set(doc["orders"]["G0"])
 
 
 def test_a_loop_is_not_a_seam():

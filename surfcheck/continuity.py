@@ -23,11 +23,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from surfcheck import sidefit
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
 from surfcheck.sections import Section, cut_sections
+from surfcheck.sidefit import SideEstimate, fit_side
 from surfcheck.tolerances import ToleranceProfile
 from surfcheck.transition import find_transition, split_at
 
@@ -168,8 +168,8 @@ def grade_section(section: Section, profile: ToleranceProfile, search: bool = Fa
         end_b = end_a
     else:
         data_a, data_b, end_a, end_b = section.side_a, section.side_b, section.end_a, section.end_b
-    a = sidefit.fit_side(data_a, end_a, -1.0, section.edge)
-    b = sidefit.fit_side(data_b, end_b, 1.0, section.edge)
+    a: SideEstimate = fit_side(data_a, end_a, -1.0, section.edge)
+    b: SideEstimate = fit_side(data_b, end_b, 1.0, section.edge)
     k = profile.coverage
     gap = float(np.linalg.norm(b.point - a.point))
     turn = (b.values[1] - a.values[1] + np.pi) % (2 * np.pi) - np.pi

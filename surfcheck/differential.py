@@ -392,11 +392,6 @@ def _pilot(hood: Neighbourhoods, edge: float) -> tuple[float, float]:
     return float(noise), min(1.0 / max(bend, 1e-300), 1e3 * edge)
 
 
-def _pilot_rows(hood: Neighbourhoods) -> np.ndarray:
-    used = np.flatnonzero(np.linalg.norm(hood.normals, axis=1) > 0)
-    return used[np.linspace(0, len(used) - 1, min(PILOT_SAMPLE, len(used))).astype(np.int64)]
-
-
 def _default_radius(hood: Neighbourhoods, edge: float) -> float:
     sigma, length = _pilot(hood, edge)
     balanced = RADIUS_GAIN * (sigma * edge) ** 0.2 * length**0.6
@@ -428,7 +423,9 @@ def default_radius(V: np.ndarray, F: np.ndarray) -> float:
     return _default_radius(Neighbourhoods.of_mesh(V, F, vertex_normals(V, F)), mean_edge_length(V, F))
 
 
-def principal_curvatures(V: np.ndarray, F: np.ndarray, radius: float | None = None, degree: int = 2) -> Curvature:
+def principal_curvatures(
+    V: np.ndarray, F: np.ndarray, radius: float | None = None, degree: int = 2
+) -> Curvature:
     """Principal curvatures and directions at every vertex from osculating jets.
 
     Each vertex's neighbours within ``radius`` (part units; None: default_radius) are expressed in the

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from surfcheck.differential import (
+    MAX_RADIUS,
     Neighbourhoods,
     _as_mesh,
     _default_radius,
@@ -85,7 +86,7 @@ def jump_fields(
     """Curvature-jump and tangent-jump fields at every vertex (see the module docstring).
 
     ``radius`` is the neighbourhood radius in part units (None: JUMP_RADIUS times the default jet
-    radius of surfcheck.differential.default_radius); ``directions`` the number of cut lines, evenly
+    radius of surfcheck.differential.default_radius, at most MAX_RADIUS mean edge lengths); ``directions`` the number of cut lines, evenly
     spaced over 180 degrees from the direction of maximum curvature; ``degree`` the half fits' degree
     across the cut.
     """
@@ -96,7 +97,8 @@ def jump_fields(
     normals = vertex_normals(V, F)
     hood = Neighbourhoods.of_mesh(V, F, normals)
     if radius is None:
-        radius = JUMP_RADIUS * _default_radius(hood, mean_edge_length(V, F))
+        edge = mean_edge_length(V, F)
+        radius = min(JUMP_RADIUS * _default_radius(hood, edge), MAX_RADIUS * edge)
     hood = hood.at_radius(radius)
 
     def chunk(rows: np.ndarray):
@@ -129,11 +131,15 @@ def jump_fields(
     return JumpFields(curvature, tangent, across, float(radius))
 
 
-def curvature_jump_field(V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4) -> np.ndarray:
+def curvature_jump_field(
+    V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4
+) -> np.ndarray:
     """(n,) largest jump of normal curvature across a cut through each vertex, 1/unit (jump_fields)."""
     return jump_fields(V, F, radius, directions).curvature
 
 
-def tangent_jump_field(V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4) -> np.ndarray:
+def tangent_jump_field(
+    V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4
+) -> np.ndarray:
     """(n,) largest angle between one-sided normals across a cut through each vertex, degrees."""
     return jump_fields(V, F, radius, directions).tangent

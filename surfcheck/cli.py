@@ -201,6 +201,63 @@ def report(
     grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out)
 
 
+@app.command()
+def blend(
+    parts: list[Path] = typer.Argument(..., help="PART (both chains on it) or PART_A PART_B."),
+    chain_from: str = typer.Option(..., "--from", help="Boundary chain id on the (first) part, from `surfcheck loops`."),
+    chain_to: str = typer.Option(..., "--to", help="Boundary chain id on the (second) part."),
+    order: int = typer.Option(..., "--order", help="Contact order K to reach on both seams: 1, 2 or 3."),
+    step: str = typer.Option("hermite", "--step", help="Smooth step: hermite (default), rational, exp or linear."),
+    span: Optional[float] = typer.Option(None, "--span", help="How far each side's extension reaches, in part units."),
+    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default from the chains)."),
+    out_patch: Optional[Path] = typer.Option(None, "--out", help="Write the patch alone (.obj, .ply, .stl)."),
+    merged_file: Optional[Path] = typer.Option(None, "--merged", help="Write part(s) + patch, welded, as one grouped file."),
+    tolerance: str = TOLERANCE_OPT,
+    units: str = UNITS_OPT,
+    as_json: bool = JSON_OPT,
+) -> None:
+    """Build a blend patch of order K between two boundary chains and grade its two new seams."""
+    from surfcheck.blend import build_blend, merge_with_patch, patch_part, prove_blend
+    from surfcheck.io import save_part
+    from surfcheck.results import grade_document
+    from surfcheck.tolerances import load_profile
+
+    if len(parts) not in (1, 2):
+        raise InputError("blend takes PART, or PART_A PART_B")
+    profile = load_profile(tolerance)
+    part_a = read_part(parts[0], units=units).part
+    part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units).part
+    chain_a = _one_chain(SeamIndex(part_a), chain_from, parts[0])
+    chain_b = _one_chain(SeamIndex(part_b), chain_to, parts[-1])
+    result = build_blend(part_a, chain_a, part_b, chain_b, order, step, span, resolution)
+    merged = merge_with_patch(part_a, result, None if len(parts) == 1 else part_b)
+    if out_patch:
+        save_part(patch_part(result, part_a.units, str(out_patch)), out_patch)
+    if merged_file:
+        save_part(merged.part, merged_file)
+    grades = prove_blend(merged, profile)
+    document = grade_document(merged.part, grades, profile, order,
+                              {"from": chain_from, "to": chain_to, "order": order, "step": step, "span": span,
+                               "resolution": result.spacing, "problems": list(result.problems)})
+    if as_json:
+        print_json(document)
+    else:
+        for problem in result.problems:
+            console.print(f"[red]problem:[/red] {problem}")
+        print_grades(document)
+        written = [str(p) for p in (out_patch, merged_file) if p]
+        console.print(f"patch: {len(result.vertices)} vertices, {len(result.faces)} triangles"
+                      + (f"; written {', '.join(written)}" if written else ""))
+    raise typer.Exit(1 if result.problems or document["verdict"] == "fail" else 0)
+
+
+def _one_chain(index: SeamIndex, spec: str, where: Path):
+    found = index.find(spec)
+    if len(found) != 1 or found[0].kind != "chain":
+        raise InputError(f"{where}: {spec!r} is not a boundary chain; use a chain-N.K id from `surfcheck loops`")
+    return found[0]
+
+
 def _progress(items: list, what: str, quiet: bool):
     """Items, with a progress bar on a terminal's stderr unless quiet."""
     from rich.progress import track

@@ -9,7 +9,8 @@ profile is made to a known continuity class, so the demo shows every grade:
 - front-wall -> lip-blend -> underside: smooth-step curvature ramps into an arc (G3).
 
 The files: the part as OBJ with groups, as binary STL, as PLY with a group property, and a "scanned"
-copy (moved to a scanner's frame, normal noise of 0.01 mm, no groups). Regenerate sample_meshes/ with
+copy (moved to a scanner's frame, normal noise of 0.01 mm, no groups), and the part with its edge
+fillet cut away (a gap the blend demo bridges at K = 1, 2, 3). Regenerate sample_meshes/ with
 `python -m surfcheck.demo sample_meshes`.
 """
 
@@ -22,17 +23,24 @@ from pathlib import Path
 import numpy as np
 from scipy.spatial.transform import Rotation
 
-from surfcheck.io import read_part, save_part
+from surfcheck.blend import build_blend, merge_with_patch, prove_blend
+from surfcheck.continuity import grade_seam
+from surfcheck.io import read_part, save_part, write_atomic
 from surfcheck.part import Part
-from surfcheck.seams import SeamIndex
+from surfcheck.seams import Curve, SeamIndex
+from surfcheck.report import write_report
 from surfcheck.shapes import Profile, add_normal_noise, arc, clothoid, corner, extrude, line, ramp
+from surfcheck.results import CAUTION, grade_document, parse_requirement, verdict
 from surfcheck.summary import part_summary
+from surfcheck.tolerances import load_profile
 
 FILLET_RADIUS = 4.0  # mm
 BLEND_SPIRAL = 3.0  # mm of curvature ramp at each end of the G2 and G3 blends
 DEPTH = 24.0  # mm of extrusion
 EDGE = 0.5  # mm, mesh edge length
 REVIEW_REQUIREMENT = "G2"  # what the demo's reviews check: the styling surfaces of the shell
+CUT_AWAY = "edge-fillet"  # the poor fillet the blend demo replaces
+BLEND_RESOLUTION = 0.1  # mm, patch edge length: enough rows across the gap for the grader to read
 SCAN_NOISE = 0.01  # mm, standard deviation along the normal (a structured-light scanner's order)
 SCAN_MOTION = (Rotation.from_euler("xyz", [12.0, -7.0, 31.0], degrees=True).as_matrix(), np.array([41.0, -13.0, 6.5]))
 
@@ -98,6 +106,32 @@ def scanned_part() -> Part:
     return Part(moved, sampled.faces, np.zeros(sampled.n_faces, dtype=np.int64), ("scan",), "mm", "housing-scan")
 
 
+def gap_part(nominal: Part) -> Part:
+    """The shell with its poor (G1) edge fillet cut away: a gap between side-wall and top to bridge."""
+    keep = nominal.face_group != nominal.group_index(CUT_AWAY)
+    used, faces = np.unique(nominal.faces[keep], return_inverse=True)
+    names = tuple(n for n in nominal.group_names if n != CUT_AWAY)
+    renumber = np.array([names.index(n) if n in names else -1 for n in nominal.group_names])
+    return Part(nominal.vertices[used], faces.reshape(-1, 3), renumber[nominal.face_group[keep]], names,
+                nominal.units, "housing-gap")
+
+
+def gap_chains(part: Part) -> tuple[Curve, Curve]:
+    """The two boundary chains the cut left: side-wall's upper edge and top's near edge (the
+    straight chains, along the extrusion, that touch the gap)."""
+    index = SeamIndex(part)
+    found = []
+    for group in ("side-wall", "top"):
+        chains = [c for c in index.chains if c.groups == (group,)]
+        found.append(min(chains, key=lambda c: _distance_to_gap(c.points)))
+    return found[0], found[1]
+
+
+def _distance_to_gap(points: np.ndarray) -> float:
+    fillet_middle = np.array([12.0 - FILLET_RADIUS * (1 - np.cos(np.pi / 4)), 14.0 + FILLET_RADIUS * np.sin(np.pi / 4)])
+    return float(np.linalg.norm(points[:, :2].mean(axis=0) - fillet_middle)) + (0.0 if np.ptp(points[:, 2]) > DEPTH / 2 else 1e9)
+
+
 def write_samples(folder: str | Path) -> dict[str, Path]:
     """Write the sample files; returns name -> path."""
     folder = Path(folder)
@@ -107,6 +141,7 @@ def write_samples(folder: str | Path) -> dict[str, Path]:
         "housing.stl": nominal,
         "housing.ply": nominal,
         "housing-scan.stl": scanned_part(),
+        "housing-gap.obj": gap_part(nominal),
     }
     return {name: save_part(part, folder / name) for name, part in files.items()}
 
@@ -115,8 +150,13 @@ def run_demo(out: str | Path, say=print) -> dict:
     """Build the samples in ``out``/samples and run every capability on them, writing results to ``out``."""
     out = Path(out)
     samples = write_samples(out / "samples")
-    results: dict = {"samples": {name: str(path) for name, path in samples.items()}, "inspect": {}, "loops": {}}
+    results: dict = {"samples": {name: str(path) for name, path in samples.items()}, "inspect": {}, "loops": {},
+                     "grades": {}}
     for name, path in samples.items():
+        if name == "housing-gap.obj":
+            results["blends"] = _bridge_gap(path, out, say)
+            continue
+        stem = f"{Path(name).stem}-{Path(name).suffix[1:]}"
         loaded = read_part(path)
         summary = part_summary(loaded)
         index = SeamIndex(loaded.part)
@@ -124,36 +164,61 @@ def run_demo(out: str | Path, say=print) -> dict:
         results["loops"][name] = {"loops": len(index.loops), "chains": len(index.chains), "seams": len(index.seams)}
         say(f"{name}: {summary['vertices']} vertices, {summary['faces']} triangles, {len(summary['groups'])} groups,"
             f" {len(index.seams)} seams, {len(index.chains)} boundary chains")
-        _write_json(out / f"{Path(name).stem}-{Path(name).suffix[1:]}-inspect.json", summary)
-        if len(loaded.part.group_names) > 1:
-            review = out / f"{Path(name).stem}-{Path(name).suffix[1:]}-review"
-            results.setdefault("reviews", {})[name] = _write_review(loaded, index, review)
-            say(f"{name}: review page {review / 'index.html'} ({results['reviews'][name]['verdict']}"
-                f" for {REVIEW_REQUIREMENT})")
+        _write_json(out / f"{stem}-inspect.json", summary)
+        if index.seams:
+            results["grades"][name] = _grade_and_review(loaded, index, out / f"{stem}-review", say)
     _write_json(out / "demo.json", results)
+    say(CAUTION)
     return results
 
 
-def _write_review(loaded, index: SeamIndex, folder: Path) -> dict:
-    """Grade every seam of a grouped sample against the general profile and write its review page."""
-    from surfcheck.continuity import grade_seam
-    from surfcheck.report import write_report
-    from surfcheck.results import parse_requirement, verdict
-    from surfcheck.tolerances import load_profile
+def _seam_line(seam: dict) -> str:
+    """One line per graded seam: what it achieved, what stopped it, what it was built as."""
+    achieved = f"G{seam['achieved']}" if seam["achieved"] >= 0 else "none"
+    limit = seam["limited_by"]
+    why = f", {limit['order']} {limit['status']}" if limit else ""
+    designed = DESIGNED.get(tuple(seam["groups"]))
+    return f"  {seam['id']} {' | '.join(seam['groups'])}: achieved {achieved}{why} (built as G{designed})"
 
-    profile = load_profile("general")
+
+def _grade_and_review(loaded, index: SeamIndex, folder: Path, say) -> dict:
+    """Grade every seam of a grouped sample against the general profile, print one line per seam and
+    write its review page (with result.json)."""
+    part = loaded.part
+    profile = load_profile("general").in_units(part.units)
     required = parse_requirement(REVIEW_REQUIREMENT)
-    grades = [grade_seam(loaded.part, seam, profile) for seam in index.seams]
-    page = write_report(loaded.part, grades, profile, required, folder,
+    grades = [grade_seam(part, seam, profile) for seam in index.seams]
+    for seam in grade_document(part, grades, profile, required)["seams"]:
+        say(_seam_line(seam))
+    page = write_report(part, grades, profile, required, folder,
                         parameters={"stations": None, "spacing": None, "seams": ["all"]},
                         summary=part_summary(loaded))
-    return {"page": str(page), "verdict": verdict(grades, required),
-            "achieved": {g.id: g.achieved for g in grades}}
+    say(f"  review page {page} ({verdict(grades, required)} for {REVIEW_REQUIREMENT})")
+    return {"page": str(page), "verdict": verdict(grades, required), "achieved": {g.id: g.achieved for g in grades}}
+
+
+def _bridge_gap(path: Path, out: Path, say) -> dict:
+    """Bridge the cut-away fillet's gap at K = 1, 2 and 3 and grade each patch's two seams."""
+    part = read_part(path).part
+    chain_a, chain_b = gap_chains(part)
+    profile = load_profile("general")
+    achieved = {}
+    say(f"{path.name}: gap between {chain_a.id} (side-wall) and {chain_b.id} (top)")
+    for order in (1, 2, 3):
+        blend = build_blend(part, chain_a, part, chain_b, order, resolution=BLEND_RESOLUTION)
+        merged = merge_with_patch(part, blend)
+        target = out / f"housing-bridged-G{order}.obj"
+        save_part(merged.part, target)
+        grades = prove_blend(merged, profile)
+        achieved[f"G{order}"] = [g.achieved for g in grades]
+        marks = ", ".join(f"{g.groups[0]} | {g.groups[1]}: G{g.achieved}" if g.achieved >= 0 else
+                          f"{g.groups[0]} | {g.groups[1]}: none" for g in grades)
+        problems = f"; problems: {'; '.join(blend.problems)}" if blend.problems else ""
+        say(f"  patch of order {order} -> {target.name}: {marks}{problems}")
+    return achieved
 
 
 def _write_json(path: Path, document: dict) -> None:
-    from surfcheck.io import write_atomic
-
     write_atomic(path, (json.dumps(document, indent=2) + "\n").encode())
 
 

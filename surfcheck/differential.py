@@ -354,18 +354,36 @@ def _pilot_rows(hood: Neighbourhoods) -> np.ndarray:
     return used[np.linspace(0, len(used) - 1, min(PILOT_SAMPLE, len(used))).astype(np.int64)]
 
 
-def _noise_level(hood: Neighbourhoods) -> float:
-    """Median residual RMS of quadric jets over ``hood`` on the pilot sample of vertices."""
-    *_, count, _, rms = _jet_curvatures(hood, _pilot_rows(hood), 2)
+def _residual_level(hood: Neighbourhoods, rows: np.ndarray):
+    """Median residual RMS of quadric jets over ``hood`` at ``rows``, and the curvatures found there."""
+    k1, k2, *_, count, _, rms = _jet_curvatures(hood, rows, 2)
     fitted = count > len(jet_exponents(2)) + 3
-    return float(np.median(rms[fitted])) if fitted.any() else 0.0
+    return (float(np.median(rms[fitted])) if fitted.any() else 0.0), k1, k2
+
+
+def _pilot(hood: Neighbourhoods, edge: float) -> tuple[float, float]:
+    """Noise level (part units) and curvature length of the part, from quadric jets on a sample.
+
+    The residual of a quadric jet is noise plus misfit; the misfit grows as the cube of the radius
+    (the jet's first neglected terms), the noise does not. Residuals at two radii r1 < r2 separate
+    them: noise^2 = (s1^2 q^6 - s2^2) / (q^6 - 1) with q = r2 / r1.
+    """
+    rows = _pilot_rows(hood)
+    small, _, _ = _residual_level(hood.at_radius(MIN_RADIUS * edge), rows)
+    large, k1, k2 = _residual_level(hood.at_radius(SCALE_RADIUS * edge), rows)
+    q6 = (SCALE_RADIUS / MIN_RADIUS) ** 6
+    noise = np.sqrt(max(small * small * q6 - large * large, 0.0) / (q6 - 1.0))
+    bend = np.nanpercentile(np.maximum(np.abs(k1), np.abs(k2)), 90) if len(rows) else 0.0
+    return float(noise), min(1.0 / max(bend, 1e-300), 1e3 * edge)
+
+
+def _pilot_rows(hood: Neighbourhoods) -> np.ndarray:
+    used = np.flatnonzero(np.linalg.norm(hood.normals, axis=1) > 0)
+    return used[np.linspace(0, len(used) - 1, min(PILOT_SAMPLE, len(used))).astype(np.int64)]
 
 
 def _default_radius(hood: Neighbourhoods, edge: float) -> float:
-    sigma = _noise_level(hood.at_radius(MIN_RADIUS * edge))
-    k1, k2, *_ = _jet_curvatures(hood.at_radius(SCALE_RADIUS * edge), _pilot_rows(hood), 2)
-    bend = np.nanpercentile(np.maximum(np.abs(k1), np.abs(k2)), 90)
-    length = min(1.0 / max(bend, 1e-300), 1e3 * edge)
+    sigma, length = _pilot(hood, edge)
     balanced = RADIUS_GAIN * (sigma * edge) ** 0.2 * length**0.6
     return float(np.clip(balanced, MIN_RADIUS * edge, MAX_RADIUS * edge))
 
@@ -373,13 +391,12 @@ def _default_radius(hood: Neighbourhoods, edge: float) -> float:
 def noise_level(V: np.ndarray, F: np.ndarray) -> float:
     """Estimated standard deviation of the vertices' scatter about a smooth surface (part units).
 
-    Quadric jets over MIN_RADIUS mean edge lengths on a fixed sample of PILOT_SAMPLE vertices: the
-    median of their residual RMS. On a clean mesh this is the small misfit of a quadric; on a scan, the
-    scanner's noise.
+    From the residuals of quadric jets at MIN_RADIUS and SCALE_RADIUS mean edge lengths on a fixed
+    sample of PILOT_SAMPLE vertices, with the quadric's own misfit taken out (see _pilot). About zero
+    on a clean mesh; the scanner's noise on a scan.
     """
     V, F = _as_mesh(V, F)
-    hood = Neighbourhoods.of_mesh(V, F, vertex_normals(V, F))
-    return _noise_level(hood.at_radius(MIN_RADIUS * mean_edge_length(V, F)))
+    return _pilot(Neighbourhoods.of_mesh(V, F, vertex_normals(V, F)), mean_edge_length(V, F))[0]
 
 
 def default_radius(V: np.ndarray, F: np.ndarray) -> float:
@@ -389,7 +406,8 @@ def default_radius(V: np.ndarray, F: np.ndarray) -> float:
     while its bias grows as r^2 / L^3 (L a curvature length). The sum is least at
     r = RADIUS_GAIN (sigma e)^(1/5) L^(3/5), clipped to MIN_RADIUS..MAX_RADIUS edge lengths. sigma is
     the noise_level; L is one over the 90th percentile of max(|k1|, |k2|) of pilot fits at
-    SCALE_RADIUS edge lengths, so the radius suits the tighter features (fillets) of the part.
+    SCALE_RADIUS edge lengths, so the radius suits the tighter features (fillets) of the part. A clean
+    mesh gets MIN_RADIUS edge lengths.
     """
     V, F = _as_mesh(V, F)
     return _default_radius(Neighbourhoods.of_mesh(V, F, vertex_normals(V, F)), mean_edge_length(V, F))

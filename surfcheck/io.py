@@ -20,7 +20,7 @@ import trimesh
 from scipy.spatial import cKDTree
 
 from surfcheck.errors import InputError
-from surfcheck.part import Part
+from surfcheck.part import Part, check_mesh_arrays
 from surfcheck.validation import clean_faces, fatal_defects
 
 FORMATS = (".stl", ".obj", ".ply")
@@ -77,13 +77,7 @@ def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> 
 def _assemble(raw: RawMesh, name: str, units: str, weld: bool) -> LoadResult:
     V = np.asarray(raw.vertices, dtype=np.float64).reshape(-1, 3)
     F = np.asarray(raw.faces, dtype=np.int64).reshape(-1, 3)
-    if len(V) == 0 or len(F) == 0:
-        raise InputError(f"{name}: the mesh is empty (no vertices or no triangles)")
-    if not np.isfinite(V).all():
-        bad = int((~np.isfinite(V).all(axis=1)).sum())
-        raise InputError(f"{name}: {bad} vertices have NaN or infinite coordinates; repair the export")
-    if F.min() < 0 or F.max() >= len(V):
-        raise InputError(f"{name}: a triangle refers to a vertex that does not exist")
+    check_mesh_arrays(V, F, name)
     merged = 0
     if weld:
         V, F, merged = weld_vertices(V, F)
@@ -281,6 +275,9 @@ def write_atomic(path: Path, payload: bytes) -> None:
     try:
         with os.fdopen(handle, "wb") as stream:
             stream.write(payload)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(temporary, 0o666 & ~umask)  # mkstemp makes 0600; a written part is an ordinary file
         os.replace(temporary, path)
     except BaseException:
         if os.path.exists(temporary):

@@ -11,6 +11,19 @@ import scipy.sparse as sp
 from surfcheck.errors import InputError
 
 
+def check_mesh_arrays(V: np.ndarray, F: np.ndarray, where: str) -> None:
+    """InputError unless V is (n, 3) finite, F is (m, 3) indexing V, and neither is empty."""
+    if V.ndim != 2 or V.shape[1] != 3 or F.ndim != 2 or F.shape[1] != 3:
+        raise InputError(f"{where}: vertices must be (n, 3) and faces (m, 3)")
+    if len(V) == 0 or len(F) == 0:
+        raise InputError(f"{where}: the mesh is empty (no vertices or no triangles)")
+    if not np.isfinite(V).all():
+        bad = int((~np.isfinite(V).all(axis=1)).sum())
+        raise InputError(f"{where}: {bad} vertices have NaN or infinite coordinates; repair the export")
+    if F.min() < 0 or F.max() >= len(V):
+        raise InputError(f"{where}: a triangle refers to a vertex that does not exist")
+
+
 @dataclass(frozen=True, eq=False)
 class Part:
     """A triangle mesh: vertices (n,3) float64, faces (m,3) int64, face_group (m,) int64.
@@ -31,15 +44,7 @@ class Part:
         F = np.ascontiguousarray(self.faces, dtype=np.int64)
         G = np.ascontiguousarray(self.face_group, dtype=np.int64)
         where = self.source or "mesh"
-        if V.ndim != 2 or V.shape[1] != 3 or F.ndim != 2 or F.shape[1] != 3:
-            raise InputError(f"{where}: vertices must be (n, 3) and faces (m, 3)")
-        if len(V) == 0 or len(F) == 0:
-            raise InputError(f"{where}: the mesh is empty (no vertices or no triangles)")
-        if not np.isfinite(V).all():
-            bad = int((~np.isfinite(V).all(axis=1)).sum())
-            raise InputError(f"{where}: {bad} vertices have NaN or infinite coordinates; repair the export")
-        if F.min() < 0 or F.max() >= len(V):
-            raise InputError(f"{where}: a triangle refers to a vertex that does not exist")
+        check_mesh_arrays(V, F, where)
         if G.shape != (len(F),):
             raise InputError(f"{where}: face_group must hold one group per triangle")
         if len(G) and (G.min() < 0 or G.max() >= len(self.group_names)):

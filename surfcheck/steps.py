@@ -32,6 +32,7 @@ from surfcheck.errors import InputError
 
 KINDS = ("linear", "hermite", "rational", "exp")
 MAX_ORDER = 8
+MAX_DERIVATIVE = 9
 
 
 def smoothness(kind: str, order: int) -> float:
@@ -42,7 +43,7 @@ def smoothness(kind: str, order: int) -> float:
 
 
 def smooth_step(x, kind: str = "exp", order: int = 2, derivative: int = 0) -> np.ndarray:
-    """The value (``derivative`` = 0) or the n-th derivative (n <= order + 1) of a smooth step at x.
+    """The value (``derivative`` = 0) or the n-th derivative (n <= 9) of a smooth step at x.
 
     At x = 0 and x = 1 the derivative is the one-sided one from inside [0, 1]; outside [0, 1] every
     derivative is 0. NaN in x gives NaN.
@@ -50,8 +51,8 @@ def smooth_step(x, kind: str = "exp", order: int = 2, derivative: int = 0) -> np
     _check_kind(kind)
     if not (isinstance(order, (int, np.integer)) and 0 <= order <= MAX_ORDER):
         raise InputError(f"step order must be an integer from 0 to {MAX_ORDER}, not {order!r}")
-    if not (isinstance(derivative, (int, np.integer)) and 0 <= derivative <= order + 1):
-        raise InputError(f"a step of order {order} has derivatives 0 to {order + 1}, not {derivative!r}")
+    if not (isinstance(derivative, (int, np.integer)) and 0 <= derivative <= MAX_DERIVATIVE):
+        raise InputError(f"step derivatives go from 0 to {MAX_DERIVATIVE}, not {derivative!r}")
     x = np.asarray(x, dtype=np.float64)
     out = np.zeros(x.shape)
     if derivative == 0:

@@ -107,8 +107,8 @@ def load_profile(name_or_path: str | Path) -> ToleranceProfile:
         raise InputError(f"unknown tolerance profile {text!r}: use {', '.join(PROFILES)} or a .toml file")
     try:
         import tomllib
-    except ModuleNotFoundError:  # Python 3.10
-        raise InputError("reading a TOML tolerance file needs Python 3.11 or newer; use a named profile") from None
+    except ModuleNotFoundError:  # Python 3.10: the same parser, packaged as tomli
+        import tomli as tomllib
     try:
         data = tomllib.loads(path.read_text(encoding="utf-8"))
     except FileNotFoundError:

@@ -1,0 +1,242 @@
+"""Blend bands: which curved regions are pieces of fillet bands, and where a band's borders lie.
+
+A band piece bends noticeably, meets its neighbours tangentially and has its largest curvature running
+across its borders (band_pieces). A band's borders with its faces are then placed by averaged costs
+and straightened station by station (refine_band_borders).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
+from scipy.spatial import cKDTree
+
+from surfcheck.fillets import stations_along
+from surfcheck.primitives import Primitive
+from surfcheck.regions import ScanMesh, nearby_labels
+
+BAND_ACROSS = 0.5  # band piece: median |border tangent . steepest direction| under this
+TANGENT_DEG = 12.0  # band piece: median angle between the normals across its borders under this
+BORDER_STEPS = 4  # face-ring averaging steps of the cost when a band's borders are placed
+BORDER_MADS = 6.0  # a face keeps its border faces while their averaged cost stays within 6 MADs
+STRAIGHTEN_REACH = 3.0  # scales either side of a band border that are relabelled when it is straightened
+
+def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None]) -> np.ndarray:
+    """(n_labels,) True for the curved regions that are pieces of blend bands.
+
+    A band piece bends noticeably, meets every neighbour tangentially (median angle between the two
+    sides' normals along the border under TANGENT_DEG) and its largest curvature runs across its borders
+    (median |border tangent . steepest direction| under BAND_ACROSS): a fillet's borders follow its
+    direction of least curvature, a cylinder boss's borders go round it. The steepest direction is the
+    primitive's where it fits within 1.2 noise levels (jets beside a border see the neighbour's
+    curvature), the jets' elsewhere.
+    """
+    A = sp.triu(mesh.adjacency).tocoo()
+    border = label[A.row] != label[A.col]
+    fa, fb = A.row[border], A.col[border]
+    tangent = _border_direction(mesh, fa, fb, label)
+    side_normal = mesh.normals.copy()
+    steepest = _jet_steepest(mesh)
+    for j, model in enumerate(models):
+        if model is None:
+            continue
+        faces = np.flatnonzero(label == j)
+        side_normal[faces] = model.normals(mesh.centroids[faces])
+        own = model.steepest_directions(mesh.centroids[faces]) if model.rms <= 1.2 * mesh.noise else None
+        if own is not None:
+            steepest[faces] = own
+    bend = np.arccos(np.clip(np.abs(np.einsum("ij,ij->i", side_normal[fa], side_normal[fb])), 0, 1))
+    k = np.maximum(np.abs(mesh.shape.k1), np.abs(mesh.shape.k2))[mesh.F].mean(axis=1)
+    pieces = np.zeros(len(models), dtype=bool)
+    for j, model in enumerate(models):
+        if model is not None and model.kind == "plane":
+            continue
+        on_a, on_b = label[fa] == j, label[fb] == j
+        side = np.concatenate([fa[on_a], fb[on_b]])
+        if len(side) < 3:
+            continue
+        tang = np.concatenate([tangent[on_a], tangent[on_b]])
+        across = np.median(np.abs(np.einsum("ij,ij->i", steepest[side], tang)))
+        smooth = np.median(np.concatenate([bend[on_a], bend[on_b]])) < np.radians(TANGENT_DEG)
+        faces = label == j
+        curved = np.median(k[faces]) * np.sqrt(mesh.areas[faces].sum()) > 1.0
+        pieces[j] = across < BAND_ACROSS and smooth and curved
+    return pieces
+
+
+def _jet_steepest(mesh: ScanMesh) -> np.ndarray:
+    """(m,3) per face, the jets' principal direction of largest |curvature| (sign-aligned average)."""
+    shape = mesh.shape
+    d = np.where((np.abs(shape.k1) >= np.abs(shape.k2))[:, None], shape.d1, shape.d2)[mesh.F]
+    d = d * np.sign(np.einsum("fki,fi->fk", d, d[:, 0]))[..., None]
+    d = d.sum(axis=1)
+    return d / np.maximum(np.linalg.norm(d, axis=1, keepdims=True), 1e-300)
+
+
+def _border_direction(mesh: ScanMesh, fa: np.ndarray, fb: np.ndarray, label: np.ndarray, k: int = 12) -> np.ndarray:
+    """Unit direction of the border between two regions at each border edge (faces fa[i] | fb[i]):
+    the principal axis of the k nearest border-edge midpoints of the same pair of regions, so that a
+    ragged staircase of mesh edges still gives the direction the border runs in."""
+    Fa, Fb = mesh.F[fa], mesh.F[fb]
+    common = (Fa[:, :, None] == Fb[:, None, :]).any(axis=2)
+    first = np.argmax(common, axis=1)
+    second = 2 - np.argmax(common[:, ::-1], axis=1)
+    rows = np.arange(len(fa))
+    mid = 0.5 * (mesh.V[Fa[rows, first]] + mesh.V[Fa[rows, second]])
+    pair = np.sort(np.stack([label[fa], label[fb]], 1), axis=1)
+    _, group = np.unique(pair, axis=0, return_inverse=True)
+    direction = np.zeros_like(mid)
+    for g in np.unique(group):
+        idx = np.flatnonzero(group.ravel() == g)
+        direction[idx] = _principal_directions(mid[idx], k)
+    return direction
+
+
+def _smoothed(mesh: ScanMesh, values: np.ndarray, inside: np.ndarray, steps: int) -> np.ndarray:
+    """``values`` averaged over face neighbourhoods ``steps`` times, within the faces ``inside``."""
+    keep = sp.diags(inside.astype(np.float64))
+    step = keep @ (mesh.adjacency + sp.identity(len(values), format="csr")) @ keep
+    weight = np.maximum(np.asarray(step.sum(axis=1)).ravel(), 1.0)
+    out = np.where(inside, values, 0.0)
+    for _ in range(steps):
+        out = (step @ out) / weight
+    return out
+
+
+def refine_band_borders(mesh: ScanMesh, groups_faces: list) -> list:
+    """Smooth the border between each fillet band and each neighbouring face.
+
+    Costs are averaged over a few face rings, which makes a per-face decision several times less
+    noisy. A band with a primitive of its own (a circular fillet) meets the face where the two averaged
+    costs (squared distance and normal residuals in noise units) are equal: where the two surfaces
+    touch. A freeform band (a G2 or G3 blend, whose deviation from the face grows from zero) meets it
+    where the face's averaged squared distance leaves its own typical level away from the band (median
+    plus BORDER_MADS median absolute deviations); distances are used alone there because jets are bent
+    within their radius of a change in curvature. Only faces within 3 BORDER_STEPS rings of the band move.
+    """
+    label = np.full(len(mesh.F), -1, dtype=np.int64)
+    for j, (_, faces, _) in enumerate(groups_faces):
+        label[faces] = j
+    for b, (kind, band_faces, band_model) in enumerate(groups_faces):
+        if kind != "fillet":
+            continue
+        around = np.unique(label[mesh.adjacency[label == b].indices])
+        sides = [n for n in around if n != b and groups_faces[n][2] is not None and groups_faces[n][0] != "fillet"]
+        if not sides:
+            continue
+        near_band = np.asarray(nearby_labels(mesh, (label == b).astype(np.int64) - 1, 1, 3 * BORDER_STEPS)[:, 0].todense()).ravel()
+        zone = np.isin(label, [b, *sides])
+        movable = zone & near_band
+        band_cost = _smoothed(mesh, mesh.cost(band_model), zone, BORDER_STEPS) if band_model is not None else None
+        best_cost = np.full(len(label), np.inf)
+        best_side = np.full(len(label), b)
+        for n in sides:
+            model = groups_faces[n][2]
+            if band_cost is not None:
+                cost = _smoothed(mesh, mesh.cost(model), zone, BORDER_STEPS)
+                takes = movable & (cost < band_cost) & (cost < best_cost)
+            else:
+                cost = _smoothed(mesh, (mesh.distance(model) / mesh.noise) ** 2, zone, BORDER_STEPS)
+                own = cost[(label == n) & ~near_band]
+                own = cost[label == n] if len(own) < 10 else own
+                level = np.median(own) + BORDER_MADS * np.median(np.abs(own - np.median(own)))
+                takes = movable & (cost < level) & (cost < best_cost)
+            best_cost[takes], best_side[takes] = cost[takes], n
+        label[movable] = best_side[movable]
+        for n in sides:
+            label = _straightened_border(mesh, label, b, n)
+    label = _absorbed_fragments(mesh, label)
+    out = []
+    for j, (kind, _, model) in enumerate(groups_faces):
+        faces = np.flatnonzero(label == j)
+        if len(faces):
+            out.append((kind, faces, model))
+    return out
+
+
+def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int) -> np.ndarray:
+    """Straighten the border between ``band`` and ``side`` station by station.
+
+    Stations every two scales along the border each get a reference point (the mean of their border
+    vertices) and a direction across the border in the surface; faces of either group within
+    STRAIGHTEN_REACH scales get an across coordinate s from their station. At each station the
+    threshold on s that disagrees with the fewest current labels is taken (a one-dimensional
+    classification), the thresholds are median-filtered along the border, and the faces are relabelled
+    by them: the border keeps its place but loses the staircase that noise leaves in per-face decisions.
+    """
+    in_band, in_side = label == band, label == side
+    on_band = np.zeros(len(mesh.V), dtype=bool)
+    on_side = np.zeros(len(mesh.V), dtype=bool)
+    on_band[mesh.F[in_band].ravel()] = True
+    on_side[mesh.F[in_side].ravel()] = True
+    border = np.flatnonzero(on_band & on_side)
+    if len(border) < 6:
+        return label
+    P = mesh.V[border]
+    cand = np.flatnonzero(in_band | in_side)
+    dist, j = cKDTree(P).query(mesh.centroids[cand], distance_upper_bound=STRAIGHTEN_REACH * mesh.scale)
+    near = np.isfinite(dist)
+    cand, j = cand[near], j[near]
+    stations = stations_along(P, 2.0 * mesh.scale)
+    station_of = cKDTree(P[stations]).query(P[j])[1]
+    # each station's reference: the mean and principal axis of the border points nearest to it
+    border_station = cKDTree(P[stations]).query(P)[1]
+    centre = np.stack([P[border_station == k].mean(axis=0) for k in range(len(stations))])
+    tangent = _principal_directions(P, 3 * max(1, len(P) // max(len(stations), 1)))[stations]
+    normal = mesh.shape.normals[border[stations]]
+    across = np.cross(tangent, normal)
+    across /= np.maximum(np.linalg.norm(across, axis=1, keepdims=True), 1e-300)
+    s = np.einsum("ij,ij->i", mesh.centroids[cand] - centre[station_of], across[station_of])
+    vote = np.bincount(station_of, weights=np.where(in_band[cand], s, -s), minlength=len(stations))
+    s *= np.where(vote[station_of] < 0, -1.0, 1.0)  # s > 0 on the band's side at every station
+    threshold = np.zeros(len(stations))
+    for k in range(len(stations)):
+        mine = station_of == k
+        order = np.argsort(s[mine])
+        ys, ss = in_band[cand[mine]][order], s[mine][order]
+        # wrong labels if the cut is before position i: band faces below plus side faces above
+        wrong = np.concatenate([[0], np.cumsum(ys)]) + np.concatenate([np.cumsum((~ys)[::-1])[::-1], [0]])
+        i = int(np.argmin(wrong))
+        threshold[k] = 0.0 if not len(ss) else (ss[i - 1] + ss[i]) / 2 if 0 < i < len(ss) else ss[min(i, len(ss) - 1)]
+    padded = np.concatenate([threshold[:1], threshold, threshold[-1:]])
+    threshold = np.median(np.stack([padded[:-2], padded[1:-1], padded[2:]]), axis=0)
+    out = label.copy()
+    out[cand] = np.where(s < threshold[station_of], side, band)
+    return out
+
+
+def _absorbed_fragments(mesh: ScanMesh, label: np.ndarray, rounds: int = 3) -> np.ndarray:
+    """Give every piece of a group other than its largest to the group it shares most edges with
+    (straight cuts through a triangulation leave single triangles joined to their group by a corner)."""
+    label = label.copy()
+    A = mesh.adjacency.tocoo()
+    for _ in range(rounds):
+        same = label[A.row] == label[A.col]
+        g = sp.csr_matrix((np.ones(int(same.sum())), (A.row[same], A.col[same])), shape=A.shape)
+        _, piece = connected_components(g, directed=False)
+        area = np.bincount(piece, weights=mesh.areas)
+        main = np.zeros(len(area), dtype=bool)
+        for lab in np.unique(label):
+            pieces = np.unique(piece[label == lab])
+            main[pieces[np.argmax(area[pieces])]] = True
+        stray = ~main[piece]
+        if not stray.any():
+            break
+        cross = stray[A.row] & (label[A.row] != label[A.col])
+        votes = sp.csr_matrix((np.ones(int(cross.sum())), (piece[A.row[cross]], label[A.col[cross]])),
+                              shape=(len(area), int(label.max()) + 1)).toarray()
+        target = np.argmax(votes, axis=1)
+        has_vote = votes.max(axis=1) > 0
+        move = stray & has_vote[piece]
+        label[move] = target[piece[move]]
+    return label
+
+
+def _principal_directions(points: np.ndarray, k: int) -> np.ndarray:
+    """Unit principal axis of each point's k nearest neighbours among ``points``."""
+    k = min(k, len(points))
+    _, near = cKDTree(points).query(points, k=k)
+    Q = points[near.reshape(len(points), k)]
+    Q = Q - Q.mean(axis=1, keepdims=True)
+    return np.linalg.eigh(np.einsum("nki,nkj->nij", Q, Q))[1][:, :, 2]

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import json
 import sys
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -33,6 +34,7 @@ from surfcheck.shapes import Profile, add_normal_noise, arc, clothoid, corner, e
 from surfcheck.results import CAUTION, grade_document, parse_requirement, verdict
 from surfcheck.summary import part_summary
 from surfcheck.tolerances import load_profile
+from surfcheck.transfer import transfer_groups
 
 FILLET_RADIUS = 4.0  # mm
 BLEND_SPIRAL = 3.0  # mm of curvature ramp at each end of the G2 and G3 blends
@@ -167,6 +169,11 @@ def run_demo(out: str | Path, say=print) -> dict:
         _write_json(out / f"{stem}-inspect.json", summary)
         if index.seams:
             results["grades"][name] = _grade_and_review(loaded, index, out / f"{stem}-review", say)
+        elif name == "housing-scan.stl":  # grouped by the nominal part's faces, then graded as a scan
+            grouped = replace(loaded, part=transfer_groups(read_part(samples["housing.obj"]).part, loaded.part))
+            say(f"{name}: face groups transferred from housing.obj")
+            results["grades"][name] = _grade_and_review(grouped, SeamIndex(grouped.part), out / f"{stem}-review",
+                                                        say, "scan")
     _write_json(out / "demo.json", results)
     say(CAUTION)
     return results
@@ -181,11 +188,11 @@ def _seam_line(seam: dict) -> str:
     return f"  {seam['id']} {' | '.join(seam['groups'])}: achieved {achieved}{why} (built as G{designed})"
 
 
-def _grade_and_review(loaded, index: SeamIndex, folder: Path, say) -> dict:
-    """Grade every seam of a grouped sample against the general profile, print one line per seam and
+def _grade_and_review(loaded, index: SeamIndex, folder: Path, say, tolerance: str = "general") -> dict:
+    """Grade every seam of a grouped sample against a tolerance profile, print one line per seam and
     write its review page (with result.json)."""
     part = loaded.part
-    profile = load_profile("general").in_units(part.units)
+    profile = load_profile(tolerance).in_units(part.units)
     required = parse_requirement(REVIEW_REQUIREMENT)
     grades = [grade_seam(part, seam, profile) for seam in index.seams]
     for seam in grade_document(part, grades, profile, required)["seams"]:

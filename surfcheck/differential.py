@@ -51,12 +51,23 @@ def _unit(x: np.ndarray) -> np.ndarray:
     return np.divide(x, norm, out=np.zeros_like(x), where=norm > 0)
 
 
+def _triangle_geometry(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per triangle: the cross product (b - a) x (c - a), (m, 3), and the corner angles (m, 3), radians.
+
+    The three corner angles share one sine term, |cross| (twice the area), so each costs one dot
+    product and one arctan2.
+    """
+    a, b, c = V[F[:, 0]], V[F[:, 1]], V[F[:, 2]]
+    ab, bc, ca = b - a, c - b, a - c
+    cross = np.cross(ab, -ca)
+    double_area = np.sqrt(np.einsum("ij,ij->i", cross, cross))
+    dots = [-np.einsum("ij,ij->i", ab, ca), -np.einsum("ij,ij->i", bc, ab), -np.einsum("ij,ij->i", ca, bc)]
+    return cross, np.arctan2(double_area[:, None], np.stack(dots, axis=1))
+
+
 def _corner_angles(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     """(m, 3) interior angle of each triangle at each of its corners, radians."""
-    P = V[F]
-    a = np.roll(P, -1, axis=1) - P  # corner -> next corner
-    b = np.roll(P, 1, axis=1) - P  # corner -> previous corner
-    return np.arctan2(np.linalg.norm(np.cross(a, b), axis=2), np.einsum("mij,mij->mi", a, b))
+    return _triangle_geometry(V, F)[1]
 
 
 def _scatter(F: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
@@ -75,10 +86,14 @@ def vertex_normals(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     uses gets the zero vector.
     """
     V, F = _as_mesh(V, F)
-    P = V[F]
-    face_normal = _unit(np.cross(P[:, 1] - P[:, 0], P[:, 2] - P[:, 0]))
-    weighted = _corner_angles(V, F)[:, :, None] * face_normal[:, None, :]
-    return _unit(_scatter(F, weighted, len(V)))
+    cross, angle = _triangle_geometry(V, F)
+    face_normal = _unit(cross)
+    n = len(V)
+    summed = np.zeros((n, 3))
+    for i in range(3):  # corners
+        for j in range(3):  # coordinates
+            summed[:, j] += np.bincount(F[:, i], weights=angle[:, i] * face_normal[:, j], minlength=n)
+    return _unit(summed)
 
 
 def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -134,7 +149,7 @@ def fit_height(
 ) -> tuple[np.ndarray, np.ndarray]:
     """Weighted least-squares fits z ~ sum c_ab x^a y^b for each row of the (c, k) point arrays.
 
-    ``w`` is (c, k), or (c, k, h) for h weightings of the same points (such as the two sides of a
+    ``w`` is (c, k), or (h, c, k) for h weightings of the same points (such as the two sides of a
     cut). The normal equations are assembled from the power sums sum_k w x^a y^b, each computed once,
     and solved in batch. Returns the coefficients, (c, p) or (c, h, p), in the order of
     ``exponents``, and the weighted residual sums of squares, (c,) or (c, h). Coordinates should be
@@ -145,7 +160,7 @@ def fit_height(
     for _ in range(2, max(a for a, _ in pairs) + 1):
         xp.append(xp[-1] * x)
     top_y = max(b for _, b in pairs)
-    weights = [w] if w.ndim == 2 else [w[:, :, i] for i in range(w.shape[2])]
+    weights = [w] if w.ndim == 2 else list(w)
     p = len(exponents)
     results = []
     for weight in weights:
@@ -377,11 +392,6 @@ def _pilot(hood: Neighbourhoods, edge: float) -> tuple[float, float]:
     return float(noise), min(1.0 / max(bend, 1e-300), 1e3 * edge)
 
 
-def _pilot_rows(hood: Neighbourhoods) -> np.ndarray:
-    used = np.flatnonzero(np.linalg.norm(hood.normals, axis=1) > 0)
-    return used[np.linspace(0, len(used) - 1, min(PILOT_SAMPLE, len(used))).astype(np.int64)]
-
-
 def _default_radius(hood: Neighbourhoods, edge: float) -> float:
     sigma, length = _pilot(hood, edge)
     balanced = RADIUS_GAIN * (sigma * edge) ** 0.2 * length**0.6
@@ -413,7 +423,9 @@ def default_radius(V: np.ndarray, F: np.ndarray) -> float:
     return _default_radius(Neighbourhoods.of_mesh(V, F, vertex_normals(V, F)), mean_edge_length(V, F))
 
 
-def principal_curvatures(V: np.ndarray, F: np.ndarray, radius: float | None = None, degree: int = 2) -> Curvature:
+def principal_curvatures(
+    V: np.ndarray, F: np.ndarray, radius: float | None = None, degree: int = 2
+) -> Curvature:
     """Principal curvatures and directions at every vertex from osculating jets.
 
     Each vertex's neighbours within ``radius`` (part units; None: default_radius) are expressed in the

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from surfcheck.differential import (
+    MAX_RADIUS,
     Neighbourhoods,
     _as_mesh,
     _default_radius,
@@ -35,8 +36,11 @@ from surfcheck.errors import InputError
 
 JUMP_RADIUS = 1.5  # jump fits use this many times the curvature radius: each half holds half the points
 ON_CUT = 1e-9  # points this close to the cut line (in radius units) belong to both halves
-MIN_SPREAD = 0.25  # a side is fitted only if its mean distance from the cut is this many radii (half
-# disc: 4 / (3 pi) = 0.42); otherwise, as along an open boundary, that cut direction is skipped
+BALANCE = 0.9  # a cut is used only if the two sides' mean distances from it agree within this ratio
+# where one side is a narrow strip (next to an open boundary) its cross-cut terms are not resolved
+MAX_ALONG_OFFSET = 0.3  # ... and only if each side is balanced along the cut: centroid offset along
+# the cut over the RMS distance along it (0 for a half disc, about 0.8 for a quarter disc, as where
+# the cut meets an open boundary)
 
 
 @dataclass(frozen=True, eq=False)
@@ -59,16 +63,21 @@ def half_fit_exponents(degree: int) -> list[tuple[int, int]]:
 
 def _cut_fits(s, t, z, w, exponents):
     """Fit both sides of the cut s = 0; return normal curvatures across the cut (c, 2), unit normals
-    (c, 2, 3) and which sides have enough spread across the cut to be trusted (c, 2)."""
-    sides = np.stack([w * (s >= -ON_CUT), w * (s <= ON_CUT)], axis=2)
+    (c, 2, 3) and whether the pair of sides is fit to compare (c,): see BALANCE, MAX_ALONG_OFFSET."""
+    sides = np.stack([w * (s >= -ON_CUT), w * (s <= ON_CUT)])  # (2, c, k)
     coef, _ = fit_height(s, t, z, sides, exponents)
     fs, ft, fss = coef[..., 1], coef[..., 2], 2.0 * coef[..., 3]  # exponents start 1, s, t, s^2
     W = np.sqrt(1.0 + fs * fs + ft * ft)
     normal = np.stack([-fs, -ft, np.ones_like(fs)], axis=-1) / W[..., None]
-    count = sides.sum(axis=1)
-    spread = np.einsum("ck,ckh->ch", np.abs(s), sides) / np.maximum(count, 1.0)
-    trusted = (count >= 2 * len(exponents)) & (spread >= MIN_SPREAD)
-    return -fss / (W * (1.0 + fs * fs)), normal, trusted  # II(e, e) / I(e, e), e = d/ds, outward sign
+    count = np.stack([side.sum(axis=1) for side in sides], axis=1)
+    safe = np.maximum(count, 1.0)
+    spread = np.stack([np.einsum("ck,ck->c", np.abs(s), side) for side in sides], axis=1) / safe
+    t_sum = np.stack([np.einsum("ck,ck->c", t, side) for side in sides], axis=1)
+    t_square = np.stack([np.einsum("ck,ck->c", t * t, side) for side in sides], axis=1)
+    along = np.abs(t_sum) / np.sqrt(t_square * safe + 1e-300)
+    balanced = spread.min(axis=1) >= BALANCE * spread.max(axis=1)
+    usable = (count.min(axis=1) >= 2 * len(exponents)) & balanced & (along.max(axis=1) <= MAX_ALONG_OFFSET)
+    return -fss / (W * (1.0 + fs * fs)), normal, usable  # II(e, e) / I(e, e), e = d/ds, outward sign
 
 
 def jump_fields(
@@ -77,7 +86,7 @@ def jump_fields(
     """Curvature-jump and tangent-jump fields at every vertex (see the module docstring).
 
     ``radius`` is the neighbourhood radius in part units (None: JUMP_RADIUS times the default jet
-    radius of surfcheck.differential.default_radius); ``directions`` the number of cut lines, evenly
+    radius of surfcheck.differential.default_radius, at most MAX_RADIUS mean edge lengths); ``directions`` the number of cut lines, evenly
     spaced over 180 degrees from the direction of maximum curvature; ``degree`` the half fits' degree
     across the cut.
     """
@@ -88,7 +97,8 @@ def jump_fields(
     normals = vertex_normals(V, F)
     hood = Neighbourhoods.of_mesh(V, F, normals)
     if radius is None:
-        radius = JUMP_RADIUS * _default_radius(hood, mean_edge_length(V, F))
+        edge = mean_edge_length(V, F)
+        radius = min(JUMP_RADIUS * _default_radius(hood, edge), MAX_RADIUS * edge)
     hood = hood.at_radius(radius)
 
     def chunk(rows: np.ndarray):
@@ -102,8 +112,7 @@ def jump_fields(
             theta = start + j * np.pi / directions
             c, sn = np.cos(theta)[:, None], np.sin(theta)[:, None]
             s, t = c * x + sn * y, c * y - sn * x
-            bend, normal, trusted = _cut_fits(s, t, z, w, exponents)
-            both = trusted.all(axis=1)
+            bend, normal, both = _cut_fits(s, t, z, w, exponents)
             jump = np.where(both, np.abs(bend[:, 0] - bend[:, 1]), np.nan)
             dot = np.sum(normal[:, 0] * normal[:, 1], axis=1)
             sine = np.linalg.norm(np.cross(normal[:, 0], normal[:, 1]), axis=1)
@@ -122,11 +131,15 @@ def jump_fields(
     return JumpFields(curvature, tangent, across, float(radius))
 
 
-def curvature_jump_field(V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4) -> np.ndarray:
+def curvature_jump_field(
+    V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4
+) -> np.ndarray:
     """(n,) largest jump of normal curvature across a cut through each vertex, 1/unit (jump_fields)."""
     return jump_fields(V, F, radius, directions).curvature
 
 
-def tangent_jump_field(V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4) -> np.ndarray:
+def tangent_jump_field(
+    V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4
+) -> np.ndarray:
     """(n,) largest angle between one-sided normals across a cut through each vertex, degrees."""
     return jump_fields(V, F, radius, directions).tangent

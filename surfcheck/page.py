@@ -81,12 +81,12 @@ def _part_section(summary: dict) -> str:
     facts = [
         ["source", escape(summary["source"])],
         ["size", f"{summary['vertices']} vertices, {summary['faces']} triangles, units {u}"],
-        ["bounding box", f"{' '.join(_num(x) for x in box['min'])} .. {' '.join(_num(x) for x in box['max'])}"
-                         f" (diagonal {_num(box['diagonal'])} {u})"],
+        ["bounding box", f"({', '.join(_num(x) for x in box['min'])}) .. ({', '.join(_num(x) for x in box['max'])})"
+                         f" {u}, diagonal {_num(box['diagonal'])} {u}"],
         ["area", f"{_num(summary['area'])} {u}<sup>2</sup>"],
         ["edge length", f"min {_num(e['min'])}, median {_num(e['median'])}, max {_num(e['max'])} {u}"],
-        ["topology", f"{d['components']} components, {summary['boundary_loops']} boundary loops,"
-                     f" {summary['group_seams']} group seams, {d['misoriented_edges']} misoriented edges"],
+        ["topology", f"connected components {d['components']}, boundary loops {summary['boundary_loops']},"
+                     f" group seams {summary['group_seams']}, misoriented edges {d['misoriented_edges']}"],
     ]
     groups = [[escape(g["name"]), str(g["faces"]), _num(g["area"])] for g in summary["groups"]]
     warnings = "".join(f"<li>{escape(w)}</li>" for w in summary.get("warnings", []))

@@ -217,16 +217,20 @@ def _annotate_jump(ax, station: StationResult, x0: float) -> None:
 
 def _annotate_orders(ax, station: StationResult, orders: tuple[int, ...], coverage: float, u: str) -> None:
     """The station's value ± expanded uncertainty, tolerance and decision of the given orders, in a box
-    framed in the colour of the worst decision."""
+    framed in the colour of the worst decision, where it covers the least of what is drawn (a legend
+    without symbols, placed by matplotlib's "best" rule)."""
+    from matplotlib.lines import Line2D
+
     lines, worst = [], "ok"
     for k in orders:
         r = station.orders[k]
         unit = UNITS[k].format(u=u)
         lines.append(f"{ORDERS[k]} {r.value:.3g} ± {coverage * r.uncertainty:.2g} {unit}, tol {r.tolerance:.3g}: {r.status}")
         worst = "fail" if "fail" in (worst, r.status) else ("not resolved" if r.status != "ok" else worst)
-    ax.text(0.98, 0.97, "\n".join(lines), transform=ax.transAxes, ha="right", va="top", fontsize=9.5,
-            color=STATUS_TEXT[worst],
-            bbox={"boxstyle": "round", "facecolor": "white", "edgecolor": STATUS_TEXT[worst], "alpha": 0.9})
+    box = ax.legend([Line2D([], [], ls="none")], ["\n".join(lines)], loc="best", handlelength=0, handletextpad=0,
+                    fontsize=9.5, framealpha=0.9, edgecolor=STATUS_TEXT[worst])
+    for text in box.get_texts():
+        text.set_color(STATUS_TEXT[worst])
 
 
 def plot_along_seam(grade: SeamGrade, path: str | os.PathLike, *, coverage: float) -> Path:

@@ -210,8 +210,9 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
                          views=seam_views(V, F, curve.points, focus, radius, grade.id),
                          title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}) over the {f.description}")
             pictures.append(Picture(f"{stem}-map.png", f"{f.description} [{f.unit}] around {grade.id}, facing it;"
-                                    f" close-up at the governing station of {ORDERS[order]}. Tube and"
-                                    f" balls (stations): result up to {ORDERS[order]} per station.{_grey(f)}",
+                                    f" close-up at the governing station of {ORDERS[order]}. Tube: the seam; balls: the stations'"
+                                    " seam points as graded (after the transition search); both coloured by the"
+                                    f" result up to {ORDERS[order]} per station.{_grey(f)}",
                                     f"{grade.id} over the {SEAM_QUANTITY} heatmap"))
             steps.advance(f"{grade.id} picture")
             plot_along_seam(grade, out / f"{stem}-along.png", coverage=profile.coverage)

@@ -16,7 +16,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import dijkstra
 from scipy.spatial import cKDTree
+from scipy.stats import f as f_dist
 
 from surfcheck.errors import InputError
 from surfcheck.part import Part
@@ -25,6 +28,10 @@ from surfcheck.seams import Curve
 STRIP_EDGES = 6.0  # default half-width of the strip along the seam, in typical edge lengths
 REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
 MAX_STATIONS = 48  # default number of stations on a long seam
+SEAM_FIT_EDGES = 20.0  # the seam is fitted over the strip and this many edge lengths beyond
+MAX_STRIP_TURN = 0.2  # radians the seam may turn across a strip
+GEODESIC_SLACK = 1.5  # data must lie within this many times the ball radius of the station along the mesh
+MAX_SEAM_TURN = 0.5  # radians the seam may turn over its local fit (the fit narrows until it does not)
 _SEAM_FIT_DEGREE = 5
 
 
@@ -136,13 +143,17 @@ def cut_sections(
     groups = (part.group_index(group_a), part.group_index(group_b))
     sections = []
     for index, s in enumerate(positions):
-        frame = polyline.local_fit(s, strip + 4.0 * h)
-        radius = np.hypot(reach, strip) * 1.05
+        # along a tightly curved seam the strip narrows until the seam turns by MAX_STRIP_TURN over it
+        turn = polyline.turn_near(s, strip)
+        width = max(h, strip * min(1.0, MAX_STRIP_TURN / turn)) if turn > 0 else strip
+        frame = polyline.local_fit(s, width + SEAM_FIT_EDGES * h, width + 2.0 * h)
+        radius = np.hypot(reach, width) * 1.05
         mapped = []
         for tree, ids in zip(trees, (ids_a, ids_b)):
             near = ids[tree.query_ball_point(frame.origin, radius)]
-            coords, along = frame.carry(V[near])
-            inside = polyline.within(s, along, 0.5 * h) & (np.abs(along) <= strip)
+            near = near[_reachable(part, near, frame.origin, GEODESIC_SLACK * radius)]
+            coords, along, beside = frame.carry(V[near])
+            inside = beside & polyline.within(s, along, 0.5 * h) & (np.abs(along) <= width)
             mapped.append((near[inside], coords[inside]))
         (near_a, rel_a), (near_b, rel_b) = mapped
         if len(near_a) == 0 or len(near_b) == 0:
@@ -187,9 +198,10 @@ class _SeamFrame:
         c = np.polynomial.polynomial.polyder(self.coef, derivative) / self.scale**derivative if derivative else self.coef
         return np.polynomial.polynomial.polyval(tau / self.scale, c).T
 
-    def carry(self, points: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Points carried along the seam into the station's plane, relative to the origin (n, 3), and
-        their signed arc length from the station along the seam (n,)."""
+    def carry(self, points: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Points carried along the seam into the station's plane, relative to the origin (n, 3), their
+        signed arc length from the station along the seam (n,), and whether their foot point lies
+        inside the fitted stretch of the seam (n,) (the others are not beside it)."""
         tau = (points - self.origin) @ self.tangent
         for _ in range(4):  # Newton on (c(tau) - p) . c'(tau) = 0: the foot point on the seam
             c, d1, d2 = (self._eval(tau, k) for k in range(3))
@@ -204,7 +216,9 @@ class _SeamFrame:
         w = np.cross(t, self.tangent)
         cw = np.cross(w, offset)
         carried = offset + cw + np.cross(w, cw) / (1.0 + t @ self.tangent)[:, None]
-        return carried, tau * speed
+        lo, hi = self.span
+        beside = (tau > lo) & (tau < hi) & (np.abs(np.einsum("ij,ij->i", offset, t)) <= 1e-6 * self.scale)
+        return carried, tau * speed, beside
 
 
 class _SeamPolyline:
@@ -220,23 +234,45 @@ class _SeamPolyline:
         if not self.length > 0:
             raise InputError("the seam has zero length")
 
-    def local_fit(self, s: float, half_width: float) -> _SeamFrame:
+    def local_fit(self, s: float, half_width: float, least: float) -> _SeamFrame:
+        """A polynomial fit of the seam within ``half_width`` of arc length s, narrowed (not below
+        ``least``) until the seam turns by at most MAX_SEAM_TURN over it."""
         arc = self.arc[: len(self.points)]
         rel = arc - s
         if self.closed:
             rel = (rel + 0.5 * self.length) % self.length - 0.5 * self.length
+        while half_width > least and self._turn(rel, half_width) > MAX_SEAM_TURN:
+            half_width = max(least, 0.7 * half_width)
         near = np.abs(rel) <= half_width
         if near.sum() < 3:
             near = np.argsort(np.abs(rel))[: min(3, len(rel))]
         pts, rel = self.points[near], rel[near]
         order = np.argsort(rel)
         pts, rel = pts[order], rel[order]
-        degree = int(min(_SEAM_FIT_DEGREE, len(rel) - 1))
         scale = max(float(np.abs(rel).max()), 1e-300)
-        coef = np.polynomial.polynomial.polyfit(rel / scale, pts, degree)
+        coef = _smooth_fit(rel / scale, pts)
         origin = np.polynomial.polynomial.polyval(0.0, coef)
         tangent = coef[1] / np.linalg.norm(coef[1])
         return _SeamFrame(coef, scale, origin, tangent, (float(rel[0]), float(rel[-1])))
+
+    def turn_near(self, s: float, half_width: float) -> float:
+        """How far the seam turns (radians) within half_width of arc length s."""
+        rel = self.arc[: len(self.points)] - s
+        if self.closed:
+            rel = (rel + 0.5 * self.length) % self.length - 0.5 * self.length
+        return self._turn(rel, half_width)
+
+    def _turn(self, rel: np.ndarray, half_width: float) -> float:
+        """How far the seam turns over the stretch |rel| <= half_width: twice the angle between the
+        chords of its two halves (long chords, so that a noisy seam does not seem to turn)."""
+        idx = np.flatnonzero(np.abs(rel) <= half_width)
+        if len(idx) < 3:
+            return 0.0
+        idx = idx[np.argsort(rel[idx])]
+        start, middle, end = self.points[idx[0]], self.points[idx[len(idx) // 2]], self.points[idx[-1]]
+        first, last = middle - start, end - middle
+        cos = first @ last / (np.linalg.norm(first) * np.linalg.norm(last))
+        return 2.0 * float(np.arccos(np.clip(cos, -1.0, 1.0)))
 
     def within(self, s: float, along: np.ndarray, margin: float) -> np.ndarray:
         """Which points, at arc length ``along`` from the station at s, lie beside the seam (an open
@@ -244,6 +280,41 @@ class _SeamPolyline:
         if self.closed:
             return np.ones(len(along), dtype=bool)
         return (s + along >= -margin) & (s + along <= self.length + margin)
+
+
+def _reachable(part: Part, vertices: np.ndarray, origin: np.ndarray, limit: float) -> np.ndarray:
+    """Which of the vertices lie within ``limit`` of the one nearest ``origin`` along the mesh's
+    edges among them (Dijkstra on the induced subgraph), so that the far side of a small loop or a
+    neighbouring shell within the ball is not taken for this side's data."""
+    if len(vertices) == 0:
+        return np.zeros(0, dtype=bool)
+    sub = part.vertex_adjacency[vertices][:, vertices].tocoo()
+    V = part.vertices
+    lengths = np.linalg.norm(V[vertices[sub.row]] - V[vertices[sub.col]], axis=1)
+    graph = sp.csr_matrix((lengths, (sub.row, sub.col)), shape=(len(vertices), len(vertices)))
+    start = int(np.argmin(np.linalg.norm(V[vertices] - origin, axis=1)))
+    dist = dijkstra(graph, directed=False, indices=start, limit=limit)
+    return np.isfinite(dist)
+
+
+def _smooth_fit(x: np.ndarray, pts: np.ndarray) -> np.ndarray:
+    """Polynomial coefficients (deg+1, 3) of the seam's points against x: the lowest degree up to
+    _SEAM_FIT_DEGREE that the data support (an F-test against the highest degree at the 1 % level),
+    so that the noise of a scanned seam does not make its fit wiggle."""
+    top = int(min(_SEAM_FIT_DEGREE, len(x) - 2))
+    if top < 1:
+        return np.polynomial.polynomial.polyfit(x, pts, min(1, len(x) - 1))
+    fits = [np.polynomial.polynomial.polyfit(x, pts, d) for d in range(1, top + 1)]
+    rss = [float(((np.polynomial.polynomial.polyval(x, c).T - pts) ** 2).sum()) for c in fits]
+    dof_top = 3 * (len(x) - top - 1)
+    if dof_top <= 0:
+        return fits[-1]
+    sigma2 = max(rss[-1] / dof_top, 1e-300)
+    for d in range(1, top):
+        extra = 3 * (top - d)
+        if (rss[d - 1] - rss[-1]) / extra <= f_dist.ppf(0.99, extra, dof_top) * sigma2:
+            return fits[d - 1]
+    return fits[-1]
 
 
 def _seam_normal(part: Part, vertices: np.ndarray, frame: _SeamFrame, groups: tuple[int, int], radius: float) -> np.ndarray:

@@ -84,7 +84,7 @@ GENERAL = ToleranceProfile(
     origin="common CAD modelling and exchange practice, from memory; no published source",
 )
 SCAN = ToleranceProfile(
-    "scan", g0_gap=0.05, g1_angle=1.0, g2_abs=0.02, g2_rel=0.25, g3_abs=0.05, g3_rel=0.5,
+    "scan", g0_gap=0.05, g1_angle=2.0, g2_abs=0.05, g2_rel=0.25, g3_abs=0.05, g3_rel=0.5,
     description="measured data (scans with noise of about 0.01 mm)",
     origin="common practice for inspection of scanned parts, from memory; no published source",
 )

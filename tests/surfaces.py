@@ -52,7 +52,9 @@ def _parameters(nu: int, nv: int, jitter: float, warp: float, seed: int, v_close
     return (U + warp * np.sin(U)).ravel(), W.ravel()
 
 
-def torus(R: float, r: float, nu: int, nv: int, jitter: float = 0.0, warp: float = 0.0, seed: int = 1) -> Analytic:
+def torus(
+    R: float, r: float, nu: int, nv: int, jitter: float = 0.0, warp: float = 0.0, seed: int = 1
+) -> Analytic:
     """Torus of centre radius R and tube radius r. k1 = 1/r, k2 = cos v / (R + r cos v) (do Carmo 3-3)."""
     u, v = _parameters(nu, nv, jitter, warp, seed, v_closed=True)
     normal = np.stack([np.cos(v) * np.cos(u), np.cos(v) * np.sin(u), np.sin(v)], axis=1)

@@ -151,12 +151,14 @@ def test_torus_no_worse_than_libigl_and_vtk(name, request):
     assert ours[0][0] < bound and ours[1][0] < bound
 
 
-def test_higher_degree_jets_reduce_the_bias(regular_torus):
-    s = regular_torus
-    radius = 5.0 * mean_edge_length(s.V, s.F)
-    err = {d: np.median(np.abs(principal_curvatures(s.V, s.F, radius, d).k1 - s.k1)) for d in (2, 3, 4)}
-    # Cazals and Pouget 2003: the error of a degree-n jet's curvature falls with n on smooth surfaces
-    assert err[4] < err[2] and err[3] < err[2]
+def test_higher_degree_jets_reduce_the_bias():
+    s = torus(R_TORUS, r_TORUS, 210, 70)
+    radius = 4.5 * mean_edge_length(s.V, s.F)
+    err = {d: np.median(np.abs(principal_curvatures(s.V, s.F, radius, d).k1 - s.k1)) for d in (2, 4)}
+    # Cazals and Pouget 2003: a degree-n jet's curvature error is O(h^(n-1)); at this wide radius the
+    # quadric's bias dominates and the quartic jet removes most of it (measured 0.045 -> 0.003). A
+    # cubic gains little here: on a symmetric neighbourhood the quadric's error is already even-order.
+    assert err[4] < 0.25 * err[2]
 
 
 def test_default_radius_follows_the_noise(irregular_torus, noisy_torus):

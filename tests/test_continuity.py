@@ -1,0 +1,151 @@
+"""Continuity grading against synthetic fillets of known class (tests/synthetic.py).
+
+Sources: the class of each join follows from the prescribed curvature (a corner is G0 only; an arc
+after a line has a curvature jump of 1/r, the curvature of a circle of radius r, a handbook fact;
+a clothoid's curvature is linear in arc length, so its rate jumps by (k1 - k0) / L where it meets a
+line or an arc; a cubic Hermite smooth step 3x^2 - 2x^3 has zero slope at both ends, so the
+curvature rate is continuous there). The decision rule is the guard-band rule of ISO 14253-1 with
+the expanded uncertainty U = k u of JCGM 100:2008 (GUM).
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from surfcheck import shapes as S
+from surfcheck.continuity import decide, grade_seam
+from surfcheck.errors import InputError
+from surfcheck.tolerances import GENERAL, SCAN
+from tests.synthetic import RADIUS, RAMP, build, part_and_seams
+
+EXPECTED = {"sharp": 0, "arc": 1, "clothoid": 2, "smoothstep": 3}  # designed class of every seam
+NOISE = 0.01  # mm, a scanner's order on millimetre-scale fillets (issue 4)
+
+
+def grades(mesh, profile=GENERAL, vertices=None, **kw):
+    part, seams = part_and_seams(mesh, vertices)
+    return [grade_seam(part, seam, profile, **kw) for seam in seams]
+
+
+@pytest.mark.parametrize("sweep", ["extrude", "revolve"])
+@pytest.mark.parametrize("kind", list(EXPECTED))
+def test_clean_meshes_grade_exactly(kind, sweep):
+    # class by construction from the prescribed curvature (see module docstring), randomly rotated
+    for g in grades(build(kind, sweep, rotation=7)):
+        assert g.achieved == EXPECTED[kind], (g.id, g.achieved, g.limited_by)
+
+
+def _within(value, truth, uncertainty, k=2.0):
+    # |measured - truth| <= k u, plus a rounding floor of 1e-9 relative
+    return abs(value - truth) <= k * uncertainty + 1e-9 * max(1.0, abs(truth))
+
+
+def test_arc_curvature_jump_equals_one_over_r():
+    # circle of radius r: curvature 1/r (handbook); the line's is 0, so the G2 jump is 1/r
+    for g in grades(build("arc", "extrude")):
+        for st in g.stations:
+            jump = st.orders[2]
+            assert _within(jump.value, 1.0 / RADIUS, jump.uncertainty)
+            assert _within(st.orders[1].value, 0.0, st.orders[1].uncertainty)  # tangent continuous
+
+
+def test_sharp_edge_angle_equals_corner():
+    # the corner turns the heading by 60 degrees (by construction)
+    (g,) = grades(build("sharp", "revolve"))
+    for st in g.stations:
+        assert _within(st.orders[1].value, 60.0, st.orders[1].uncertainty)
+
+
+def test_clothoid_rate_jump_equals_slope_of_curvature():
+    # Euler spiral: d kappa / ds = (k1 - k0) / L = 1 / (r L), jumping to 0 on the line and on the arc
+    for g in grades(build("clothoid", "revolve")):
+        for st in g.stations:
+            assert _within(st.orders[3].value, 1.0 / (RADIUS * RAMP), st.orders[3].uncertainty)
+            assert _within(st.orders[2].value, 0.0, st.orders[2].uncertainty)
+
+
+def test_smoothstep_rate_is_continuous():
+    # cubic Hermite step: phi'(0) = phi'(1) = 0, so the curvature rate is 0 on both sides of each seam
+    for g in grades(build("smoothstep", "extrude")):
+        for st in g.stations:
+            assert _within(st.orders[3].value, 0.0, st.orders[3].uncertainty)
+            assert st.orders[3].value < 0.1 * GENERAL.g3_abs
+
+
+@pytest.mark.parametrize("sweep", ["extrude", "revolve"])
+def test_noisy_scan_grades(sweep):
+    # issue 4: with normal noise 0.01 mm and the scan profile, the sharp edge and the arc still grade
+    # 0 and 1, the curvature-continuous blends at least 2
+    for kind, lowest in (("sharp", 0), ("arc", 1), ("clothoid", 2), ("smoothstep", 2)):
+        mesh = build(kind, sweep, rotation=3)
+        noisy = S.add_normal_noise(mesh.vertices, mesh.faces, NOISE, seed=3)
+        for g in grades(mesh, SCAN, noisy):
+            if lowest < 2:
+                assert g.achieved == lowest, (kind, g.id, g.achieved, g.limited_by)
+            else:
+                assert g.achieved >= lowest, (kind, g.id, g.achieved, g.limited_by)
+
+
+@pytest.mark.parametrize("kind", ["arc", "clothoid"])
+def test_coarse_and_fine_meshes_give_the_same_grade(kind):
+    # the same surface sampled at 0.1 and 0.4 mm (a quarter of the transition length over 5 edges)
+    fine = [g.achieved for g in grades(build(kind, "extrude", edge=0.1))]
+    coarse = [g.achieved for g in grades(build(kind, "extrude", edge=0.4))]
+    assert fine == coarse == [EXPECTED[kind]] * len(fine)
+
+
+def test_separate_shells_grade_like_welded_ones():
+    # the same geometry with duplicate (unshared) vertices on the seams
+    welded = [g.achieved for g in grades(build("clothoid", "revolve"))]
+    shells = grades(build("clothoid", "revolve", separate_shells=True))
+    assert [g.achieved for g in shells] == welded
+    assert not shells[0].welded
+
+
+def test_shell_moved_by_a_known_offset_gives_that_gap():
+    # moving a shell by d perpendicular to the seam (here along the extrusion's cross direction at the
+    # seam, which for the first seam of a profile heading +y at x = 30 is the x axis) opens a gap |d|
+    offset = np.array([0.03, 0.0, 0.0])
+    mesh = build("arc", "extrude", rotation=None, separate_shells=True, offsets={"b": tuple(offset)})
+    g = grades(mesh)[0]
+    for st in g.stations:
+        gap = st.orders[0]
+        assert _within(gap.value, 0.03, gap.uncertainty)
+    assert g.orders[0].status == "fail" and g.achieved == -1  # 0.03 mm > G0 tolerance 0.01 mm
+
+
+def test_decision_rule_guard_bands():
+    # ISO 14253-1 guard bands with U = k u: conformance proven inside tol - U, non-conformance beyond tol + U
+    assert decide(0.5, 0.1, 1.0, 2.0) == "ok"
+    assert decide(0.9, 0.1, 1.0, 2.0) == "not resolved"
+    assert decide(1.1, 0.1, 1.0, 2.0) == "not resolved"
+    assert decide(1.3, 0.1, 1.0, 2.0) == "fail"
+    assert decide(0.0, np.inf, 1.0, 2.0) == "not resolved"
+
+
+def test_grade_json_shape():
+    (g,) = grades(build("sharp", "extrude"), stations=3)
+    doc = json.loads(json.dumps(g.to_dict()))
+    assert doc["achieved"] == 0 and doc["stations"] == 3 and doc["groups"] == ["a", "b"]
+    assert set(doc["orders"]) == {"G0", "G1", "G2", "G3"}
+    for key in ("value", "uncertainty", "tolerance", "status", "unit", "max", "p95", "worst_station"):
+        assert key in doc["orders"]["G1"]
+    assert doc["orders"]["G1"]["status"] == "fail" and doc["limited_by"] == {"order": "G1", "status": "fail"}
+    assert len(doc["station_values"]) == 3 and doc["station_values"][0]["G1"]["status"] == "fail"
+    # the documented schema (docs/grade.schema.json) names exactly these keys
+    schema = json.loads((Path(__file__).parents[1] / "docs" / "grade.schema.json").read_text())
+    assert set(schema["required"]) == set(doc)
+    assert set(schema["$defs"]["station"]["required"]) == set(doc["station_values"][0])
+    assert set(schema["$defs"]["summary"]["required"]) == set(doc["orders"]["G0"])
+
+
+def test_a_loop_is_not_a_seam():
+    part, (seam,) = part_and_seams(build("sharp", "extrude"))
+    from dataclasses import replace
+
+    with pytest.raises(InputError):
+        grade_seam(part, replace(seam, kind="loop"), GENERAL)

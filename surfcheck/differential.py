@@ -70,6 +70,12 @@ def _corner_angles(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     return _triangle_geometry(V, F)[1]
 
 
+def _cotangents(angle: np.ndarray) -> np.ndarray:
+    """cot of the corner angles; 0 for the corners of degenerate (zero-area) triangles."""
+    sine = np.sin(angle)
+    return np.divide(np.cos(angle), sine, out=np.zeros_like(angle), where=sine > 1e-12)
+
+
 def _scatter(F: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
     """Sum per-corner values (m, 3) or vectors (m, 3, d) onto the n vertices."""
     idx = F.reshape(-1)
@@ -459,9 +465,11 @@ def principal_curvatures(
 
 
 def boundary_vertices(F: np.ndarray, n: int) -> np.ndarray:
-    """(n,) bool: the vertex lies on an edge used by exactly one triangle."""
+    """(n,) bool: the vertex lies on an edge used by exactly one triangle (edges of zero length, from
+    degenerate triangles, are not edges)."""
     F = np.asarray(F, dtype=np.int64)
     ends = np.sort(np.stack([F, np.roll(F, -1, axis=1)], axis=2).reshape(-1, 2), axis=1)
+    ends = ends[ends[:, 0] != ends[:, 1]]
     keys, counts = np.unique(ends[:, 0] * n + ends[:, 1], return_counts=True)
     single = keys[counts == 1]
     flag = np.zeros(n, dtype=bool)
@@ -475,7 +483,7 @@ def mixed_areas(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     V, F = _as_mesh(V, F)
     P = V[F]
     angle = _corner_angles(V, F)
-    cot = 1.0 / np.tan(angle)
+    cot = _cotangents(angle)
     opposite_sq = np.sum((np.roll(P, -1, axis=1) - np.roll(P, 1, axis=1)) ** 2, axis=2)  # edge facing corner
     # Voronoi share of corner i: (|e_ij|^2 cot(angle k) + |e_ik|^2 cot(angle j)) / 8.
     voronoi = (np.roll(opposite_sq * cot, 1, axis=1) + np.roll(opposite_sq * cot, -1, axis=1)) / 8.0
@@ -514,7 +522,7 @@ def mean_curvature(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     """
     V, F = _as_mesh(V, F)
     P = V[F]
-    cot = 1.0 / np.tan(_corner_angles(V, F))
+    cot = _cotangents(_corner_angles(V, F))
     # Edge from corner i to corner i+1 is opposite corner i+2.
     edge = np.roll(P, -1, axis=1) - P
     weighted = np.roll(cot, -2, axis=1)[:, :, None] * edge  # (cot of the opposite corner) * (x_j - x_i)

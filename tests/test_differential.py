@@ -233,3 +233,14 @@ def test_cotangent_mean_curvature_agrees_with_vtk_and_libigl_on_a_clean_torus(re
     assert np.median(np.abs(H - mesh.curvature("mean"))) < 2e-3  # VTK vtkCurvatures, mean
     K_igl = igl.gaussian_curvature(s.V, s.F) / mixed_areas(s.V, s.F)  # libigl angle defect
     assert np.allclose(gaussian_curvature(s.V, s.F), K_igl, atol=1e-9)
+
+
+def test_degenerate_triangles_do_not_spoil_their_neighbours():
+    s = sphere(1.0, 4)
+    V = s.V
+    F = np.vstack([s.F, [[0, 0, 1]], [[2, 2, 2]]])  # zero-area triangles, as CAD exports contain
+    with np.errstate(all="raise"):
+        H, K = mean_curvature(V, F), gaussian_curvature(V, F)
+        c = principal_curvatures(V, F)
+    assert np.isfinite(H).all() and np.isfinite(K).all() and np.isfinite(c.k1).all()
+    assert np.allclose(c.k1, 1.0, rtol=0.03)  # sphere: k1 = 1/R

@@ -4,9 +4,10 @@ Its cross-section is molded as one profile and extruded along the shell's length
 profile is made to a known continuity class, so the demo shows every grade:
 
 - flange -> side-wall: a sharp inside corner (G0 only);
-- side-wall -> edge-fillet -> top: a circular fillet of radius 4 mm (G1: curvature jumps to 1/4);
+- side-wall -> edge-fillet -> top: a circular fillet of radius 6 mm (G1: curvature jumps to 1/6);
 - top -> front-blend -> front-wall: entry spiral, arc, exit spiral (clothoids; G2);
-- front-wall -> lip-blend -> underside: smooth-step curvature ramps into an arc (G3).
+- front-wall -> lip-blend -> underside: cubic smooth-step curvature ramps into an arc (G3: the
+  curvature rate is zero at both ends of each ramp).
 
 The files: the part as OBJ with groups, as binary STL, as PLY with a group property, and a "scanned"
 copy (moved to a scanner's frame, normal noise of 0.01 mm, no groups), and the part with its edge
@@ -36,10 +37,10 @@ from surfcheck.summary import part_summary
 from surfcheck.tolerances import load_profile
 from surfcheck.transfer import transfer_groups
 
-FILLET_RADIUS = 4.0  # mm
-BLEND_SPIRAL = 3.0  # mm of curvature ramp at each end of the G2 and G3 blends
-DEPTH = 24.0  # mm of extrusion
-EDGE = 0.5  # mm, mesh edge length
+FILLET_RADIUS = 6.0  # mm
+BLEND_SPIRAL = 6.0  # mm of curvature ramp at each end of the G2 and G3 blends
+DEPTH = 16.0  # mm of extrusion
+EDGE = 0.4  # mm, mesh edge length
 REVIEW_REQUIREMENT = "G2"  # what the demo's reviews check: the styling surfaces of the shell
 CUT_AWAY = "edge-fillet"  # the poor fillet the blend demo replaces
 BLEND_RESOLUTION = 0.1  # mm, patch edge length: enough rows across the gap for the grader to read
@@ -80,9 +81,9 @@ def housing_profile() -> Profile:
             arc(FILLET_RADIUS, "front-blend-arc", angle_deg=blend_arc),
             clothoid(BLEND_SPIRAL, k, 0.0, "front-blend-out"),
             line(14.0, "front-wall"),
-            ramp(BLEND_SPIRAL, 0.0, k, "lip-blend-in"),
+            ramp(BLEND_SPIRAL, 0.0, k, "lip-blend-in", order=1),
             arc(FILLET_RADIUS, "lip-blend-arc", angle_deg=blend_arc),
-            ramp(BLEND_SPIRAL, k, 0.0, "lip-blend-out"),
+            ramp(BLEND_SPIRAL, k, 0.0, "lip-blend-out", order=1),
             line(10.0, "underside"),
         ),
         start=(24.0, 0.0),

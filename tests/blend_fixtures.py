@@ -18,8 +18,10 @@ import numpy as np
 import sympy as sp
 from scipy.spatial.transform import Rotation
 
+from surfcheck.blend import BlendResult
 from surfcheck.part import Part
 from surfcheck.seams import Curve
+from surfcheck.tolerances import load_profile
 
 
 @dataclass(frozen=True)
@@ -159,3 +161,38 @@ GRADED_CASES = {
     "plane and parabolic sheet": (plane_a(), parabola_b(24.0, 3.0, 0.02, 9.0, 24.0), 24.0, False),
     "cylinders of radius 5 and 7": (Revolved(5.0, 0.0), Revolved(7.0, 0.0), 30.0, True),
 }
+
+
+PROFILE = load_profile("general")  # the default profile's figures (common practice, from memory)
+
+
+def section_jet(derivatives: np.ndarray, d: np.ndarray, n: np.ndarray):
+    """Tangent angle off the plane (d, n)'s tangent line (degrees), signed curvature about n and its
+    arc-length rate, of a curve given by its first three derivatives (3, 3), in the plane (d, n)."""
+    x1, x2, x3 = derivatives @ d
+    z1, z2, z3 = derivatives @ n
+    speed2 = x1 * x1 + z1 * z1
+    cross = x1 * z2 - z1 * x2
+    kappa = cross / speed2**1.5
+    rate = ((x1 * z3 - z1 * x3) * speed2 - 3.0 * cross * (x1 * x2 + z1 * z2)) / speed2**3
+    angle = np.degrees(np.arcsin(abs(z1) / np.sqrt(speed2)))
+    return angle, kappa, rate
+
+
+def achieved_order(blend: BlendResult, side_a, side_b) -> tuple[int, int]:
+    """The highest k <= 3 with G1..Gk within the general profile at every column, for each seam."""
+    s = blend.surface
+    grades = []
+    for t, side, ext in ((0.0, side_a, s.side_a), (1.0, side_b, s.side_b)):
+        derivatives = np.stack([s.derivative(np.array(t), n) for n in (1, 2, 3)], axis=1)  # (columns, 3, 3)
+        worst = 3
+        for c in range(len(ext.p)):
+            exact = side.section_at(ext.p[c])
+            angle, kappa, rate = section_jet(derivatives[c], exact.d, exact.n)
+            g2_tol = max(PROFILE.g2_abs, PROFILE.g2_rel * max(abs(kappa), abs(exact.curvature)))
+            g3_tol = max(PROFILE.g3_abs, PROFILE.g3_rel * max(abs(rate), abs(exact.rate)))
+            holds = [angle <= PROFILE.g1_angle, abs(kappa - exact.curvature) <= g2_tol,
+                     abs(rate - exact.rate) <= g3_tol]
+            worst = min(worst, holds.index(False) if False in holds else 3)
+        grades.append(worst)
+    return grades[0], grades[1]

@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 import trimesh
 
-from blend_fixtures import CASES, Revolved, corner_b, offset_b, pair, plane_a
-from surfcheck.blend import BlendResult, build_blend, default_spans, merge_with_patch
+from tests.blend_fixtures import CASES, Revolved, achieved_order, corner_b, offset_b, pair, plane_a
+from surfcheck.blend import build_blend, default_spans, merge_with_patch
 from surfcheck.blend_checks import crossing_pairs
 from surfcheck.blend_correspondence import match_chains, point_at
 from surfcheck.blend_extension import boundary_extension
@@ -23,42 +23,6 @@ from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
 from surfcheck.steps import smooth_step
-from surfcheck.tolerances import load_profile
-
-PROFILE = load_profile("general")  # the default profile's figures (common practice, from memory)
-
-
-def section_jet(derivatives: np.ndarray, d: np.ndarray, n: np.ndarray):
-    """Tangent angle off the plane (d, n)'s tangent line (degrees), signed curvature about n and its
-    arc-length rate, of a curve given by its first three derivatives (3, 3), in the plane (d, n)."""
-    x1, x2, x3 = derivatives @ d
-    z1, z2, z3 = derivatives @ n
-    speed2 = x1 * x1 + z1 * z1
-    cross = x1 * z2 - z1 * x2
-    kappa = cross / speed2**1.5
-    rate = ((x1 * z3 - z1 * x3) * speed2 - 3.0 * cross * (x1 * x2 + z1 * z2)) / speed2**3
-    angle = np.degrees(np.arcsin(abs(z1) / np.sqrt(speed2)))
-    return angle, kappa, rate
-
-
-def achieved_order(blend: BlendResult, side_a, side_b) -> tuple[int, int]:
-    """The highest k <= 3 with G1..Gk within the general profile at every column, for each seam."""
-    s = blend.surface
-    grades = []
-    for t, side, ext in ((0.0, side_a, s.side_a), (1.0, side_b, s.side_b)):
-        derivatives = np.stack([s.derivative(np.array(t), n) for n in (1, 2, 3)], axis=1)  # (columns, 3, 3)
-        worst = 3
-        for c in range(len(ext.p)):
-            exact = side.section_at(ext.p[c])
-            angle, kappa, rate = section_jet(derivatives[c], exact.d, exact.n)
-            g2_tol = max(PROFILE.g2_abs, PROFILE.g2_rel * max(abs(kappa), abs(exact.curvature)))
-            g3_tol = max(PROFILE.g3_abs, PROFILE.g3_rel * max(abs(rate), abs(exact.rate)))
-            holds = [angle <= PROFILE.g1_angle, abs(kappa - exact.curvature) <= g2_tol,
-                     abs(rate - exact.rate) <= g3_tol]
-            worst = min(worst, holds.index(False) if False in holds else 3)
-        grades.append(worst)
-    return grades[0], grades[1]
-
 
 @pytest.mark.parametrize("case", sorted(CASES))
 @pytest.mark.parametrize("order", [1, 2, 3])

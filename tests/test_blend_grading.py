@@ -1,7 +1,7 @@
 """The closed loop: blend patches graded by the continuity estimator (continuity.grade_seam) with the
 default profile, on the merged part, seam by seam.
 
-Each case is first checked against the exact section jets of its surfaces (test_blend.achieved_order),
+Each case is first checked against the exact section jets of its surfaces (blend_fixtures.achieved_order),
 so a failure below is the mesh grader's reading of a patch whose contact is known. Cases the grader
 does not yet read right are marked as strict expected failures with the reason found; they turn into
 errors as soon as the grader reads them right, and the mark is then to be removed.
@@ -11,11 +11,10 @@ from __future__ import annotations
 
 import pytest
 
-from blend_fixtures import GRADED_CASES, pair
+from tests.blend_fixtures import GRADED_CASES, achieved_order, pair
 from surfcheck.blend import build_blend, merge_with_patch
 from surfcheck.continuity import grade_seam
 from surfcheck.tolerances import load_profile
-from test_blend import achieved_order
 
 PROFILE = load_profile("general")
 

@@ -12,7 +12,7 @@ import pytest
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.segment import segment_part
-from synthetic_parts import boss_on_plate, bracket, housing, knob, scanned
+from tests.synthetic_parts import boss_on_plate, bracket, housing, knob, scanned
 
 NOISE = 0.02  # mm along the normal: a good structured-light scanner (from memory)
 

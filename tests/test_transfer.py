@@ -9,7 +9,7 @@ import pytest
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.transfer import align, transfer_groups
-from synthetic_parts import bracket, housing, scanned
+from tests.synthetic_parts import bracket, housing, scanned
 
 NOISE = 0.02
 

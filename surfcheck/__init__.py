@@ -1,7 +1,26 @@
 """surfcheck: grade the G0-G3 continuity of seams on triangle meshes and build blend patches."""
 
-from surfcheck.errors import InputError, SurfcheckError
-from surfcheck.part import Part
-
-__all__ = ["InputError", "Part", "SurfcheckError"]
 __version__ = "0.1.0"
+
+from surfcheck.continuity import SeamGrade, grade_seam
+from surfcheck.differential import (
+    Curvature,
+    gaussian_curvature,
+    mean_curvature,
+    principal_curvatures,
+    vertex_normals,
+)
+from surfcheck.errors import InputError, SurfcheckError
+from surfcheck.io import load_part, read_part, save_part
+from surfcheck.jumpfield import curvature_jump_field, tangent_jump_field
+from surfcheck.part import Part
+from surfcheck.seams import Curve, SeamIndex
+from surfcheck.steps import partition_of_unity, smooth_step
+from surfcheck.tolerances import ToleranceProfile, load_profile
+
+__all__ = [
+    "Curvature", "Curve", "InputError", "Part", "SeamGrade", "SeamIndex", "SurfcheckError", "ToleranceProfile",
+    "curvature_jump_field", "gaussian_curvature", "grade_seam", "load_part", "load_profile", "mean_curvature",
+    "partition_of_unity", "principal_curvatures", "read_part", "save_part", "smooth_step", "tangent_jump_field",
+    "vertex_normals",
+]

@@ -21,13 +21,11 @@ whose step has phi' = 0 at its ends (Hermite k >= 1, or C-infinity) G3.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from math import comb
 
 import numpy as np
-from numpy.polynomial import Polynomial
-from scipy.special import expit
 
 from surfcheck.errors import InputError
+from surfcheck.steps import hermite_polynomial, smooth_step
 
 _GAUSS_NODES, _GAUSS_WEIGHTS = np.polynomial.legendre.leggauss(16)
 _MAX_TURN_PER_PANEL = 0.02  # radians of heading change per quadrature panel: error at rounding level
@@ -69,7 +67,7 @@ class Piece:
         if self.kind == "clothoid":
             return self.k_start * u + dk * u * u / (2.0 * self.length)
         if self.order is not None:
-            return self.k_start * u + dk * self.length * _hermite(self.order).integ()(u / self.length)
+            return self.k_start * u + dk * self.length * hermite_polynomial(self.order).integ()(u / self.length)
         return self.k_start * u + dk * _cumulative_integral(lambda v: _step(v / self.length, None), u, self._panels())
 
     def displacement(self, u: np.ndarray, heading: float) -> np.ndarray:
@@ -399,21 +397,7 @@ def _rotation(rotation: int | np.ndarray | None) -> np.ndarray:
 
 def _step(x: np.ndarray, order: int | None) -> np.ndarray:
     """Smooth step on [0, 1]: Hermite smoothstep of order k, or the C-infinity exp-based step."""
-    x = np.clip(np.asarray(x, dtype=float), 0.0, 1.0)
-    if order is not None:
-        return _hermite(order)(x)
-    with np.errstate(divide="ignore"):
-        inner = np.where((x > 0) & (x < 1), 1.0 / np.where(x < 1, 1.0 - x, 1.0) - 1.0 / np.where(x > 0, x, 1.0), 0.0)
-    return np.where(x <= 0, 0.0, np.where(x >= 1, 1.0, expit(inner)))
-
-
-def _hermite(order: int) -> Polynomial:
-    """The smoothstep polynomial of degree 2k + 1: x^(k+1) sum_n C(k+n, n) C(2k+1, k-n) (-x)^n."""
-    k = order
-    coef = np.zeros(2 * k + 2)
-    for n in range(k + 1):
-        coef[k + 1 + n] = comb(k + n, n) * comb(2 * k + 1, k - n) * (-1) ** n
-    return Polynomial(coef)
+    return smooth_step(x, "exp") if order is None else smooth_step(x, "hermite", order)
 
 
 def _cumulative_integral(f, q: np.ndarray, panels: int) -> np.ndarray:

@@ -109,6 +109,11 @@ def _left_half(y: np.ndarray, kind: str, order: int, n: int) -> np.ndarray:
     return phi[n]
 
 
+def hermite_polynomial(order: int) -> npoly.Polynomial:
+    """The Hermite smoothstep of order k as a numpy Polynomial (degree 2k + 1), for exact integrals."""
+    return npoly.Polynomial(_hermite_coefficients(order))
+
+
 @lru_cache(maxsize=None)
 def _hermite_coefficients(order: int) -> np.ndarray:
     """Power-basis coefficients (ascending) of sum_{j=k+1}^{2k+1} C(2k+1, j) x^j (1-x)^(2k+1-j)."""

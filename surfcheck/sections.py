@@ -25,7 +25,7 @@ from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
 
-STRIP_EDGES = 6.0  # default half-width of the strip along the seam, in typical edge lengths
+STRIP_EDGES = 10.0  # default half-width of the strip along the seam, in typical edge lengths
 REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
 MAX_STATIONS = 48  # default number of stations on a long seam
 SEAM_FIT_EDGES = 20.0  # the seam is fitted over the strip and this many edge lengths beyond

@@ -33,7 +33,6 @@ from surfcheck.transition import find_transition, split_at
 
 ORDERS = ("G0", "G1", "G2", "G3")
 UNITS = ("{u}", "deg", "1/{u}", "1/{u}^2")
-STATUSES = ("ok", "fail", "not resolved")
 
 
 # ---------------------------------------------------------------- results

@@ -25,12 +25,12 @@ from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
 
-STRIP_EDGES = 6.0  # default half-width of the strip along the seam, in typical edge lengths
+STRIP_EDGES = 10.0  # default half-width of the strip along the seam, in typical edge lengths
 REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
 MAX_STATIONS = 48  # default number of stations on a long seam
 SEAM_FIT_EDGES = 20.0  # the seam is fitted over the strip and this many edge lengths beyond
 MAX_STRIP_TURN = 0.2  # radians the seam may turn across a strip
-GEODESIC_SLACK = 1.5  # data must lie within this many times the ball radius of the station along the mesh
+GEODESIC_SLACK = 1.3  # a side's point lies at most this many times farther along the mesh than in space
 MAX_SEAM_TURN = 0.5  # radians the seam may turn over its local fit (the fit narrows until it does not)
 _SEAM_FIT_DEGREE = 5
 
@@ -151,9 +151,12 @@ def cut_sections(
         mapped = []
         for tree, ids in zip(trees, (ids_a, ids_b)):
             near = ids[tree.query_ball_point(frame.origin, radius)]
-            near = near[_reachable(part, near, frame.origin, GEODESIC_SLACK * radius)]
+            path = _path_lengths(part, near, frame.origin, GEODESIC_SLACK * radius)
             coords, along, beside = frame.carry(V[near])
             inside = beside & polyline.within(s, along, 0.5 * h) & (np.abs(along) <= width)
+            # along the mesh a point of this side is about as far as in space; the far side of a
+            # small loop (or another sheet) that enters the ball is much farther
+            inside &= path <= GEODESIC_SLACK * np.linalg.norm(coords + along[:, None] * frame.tangent, axis=1) + 3.0 * h
             mapped.append((near[inside], coords[inside]))
         (near_a, rel_a), (near_b, rel_b) = mapped
         if len(near_a) == 0 or len(near_b) == 0:
@@ -282,19 +285,17 @@ class _SeamPolyline:
         return (s + along >= -margin) & (s + along <= self.length + margin)
 
 
-def _reachable(part: Part, vertices: np.ndarray, origin: np.ndarray, limit: float) -> np.ndarray:
-    """Which of the vertices lie within ``limit`` of the one nearest ``origin`` along the mesh's
-    edges among them (Dijkstra on the induced subgraph), so that the far side of a small loop or a
-    neighbouring shell within the ball is not taken for this side's data."""
+def _path_lengths(part: Part, vertices: np.ndarray, origin: np.ndarray, limit: float) -> np.ndarray:
+    """Shortest path lengths along the mesh's edges among the vertices (Dijkstra on the induced
+    subgraph) from the one nearest ``origin``; inf beyond ``limit`` or where not connected."""
     if len(vertices) == 0:
-        return np.zeros(0, dtype=bool)
+        return np.zeros(0)
     sub = part.vertex_adjacency[vertices][:, vertices].tocoo()
     V = part.vertices
     lengths = np.linalg.norm(V[vertices[sub.row]] - V[vertices[sub.col]], axis=1)
     graph = sp.csr_matrix((lengths, (sub.row, sub.col)), shape=(len(vertices), len(vertices)))
     start = int(np.argmin(np.linalg.norm(V[vertices] - origin, axis=1)))
-    dist = dijkstra(graph, directed=False, indices=start, limit=limit)
-    return np.isfinite(dist)
+    return dijkstra(graph, directed=False, indices=start, limit=limit)
 
 
 def _smooth_fit(x: np.ndarray, pts: np.ndarray) -> np.ndarray:

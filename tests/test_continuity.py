@@ -149,3 +149,13 @@ def test_a_loop_is_not_a_seam():
 
     with pytest.raises(InputError):
         grade_seam(part, replace(seam, kind="loop"), GENERAL)
+
+
+def test_small_closed_loop_reads_only_its_own_side():
+    # a kink of 11 degrees (by construction) on a closed seam of radius 7 at 0.5 mm edges: the far
+    # side of the loop, 14 mm away in the same section plane, must not enter the fits
+    profile = S.Profile((S.line(10, "a"), S.corner(11), S.line(10, "b")), start=(7.0, 0.0), heading_deg=90)
+    (g,) = grades(S.revolve(profile, 0.5))
+    assert g.achieved == 0 and g.orders[1].status == "fail"
+    for st in g.stations:
+        assert _within(st.orders[1].value, 11.0, st.orders[1].uncertainty)

@@ -200,7 +200,7 @@ def report(
     units: str = UNITS_OPT,
 ) -> None:
     """Grade seams and write a review page with pictures and plots (DIR/index.html, DIR/result.json)."""
-    grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out)
+    grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out, nominal=None)
 
 
 @app.command()

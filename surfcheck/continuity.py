@@ -159,16 +159,20 @@ def decide(value: float, uncertainty: float, tolerance: float, coverage: float) 
     return "not resolved"
 
 
-def grade_section(section: Section, profile: ToleranceProfile, search: bool = False) -> StationResult:
-    """Fit both sides at one station and grade G0..G3 against the profile (in the part's units)."""
-    shift = find_transition(section) if (search and section.welded) else 0.0
+def fit_sides(section: Section, shift: float) -> tuple[np.ndarray, np.ndarray, SideEstimate, SideEstimate]:
+    """Each side's data, split at ``shift`` along the section (0: as labelled), and its one-sided fit."""
     if shift != 0.0:
         data_a, data_b, end_a = split_at(section, shift)
         end_b = end_a
     else:
         data_a, data_b, end_a, end_b = section.side_a, section.side_b, section.end_a, section.end_b
-    a: SideEstimate = fit_side(data_a, end_a, -1.0, section.edge)
-    b: SideEstimate = fit_side(data_b, end_b, 1.0, section.edge)
+    return data_a, data_b, fit_side(data_a, end_a, -1.0, section.edge), fit_side(data_b, end_b, 1.0, section.edge)
+
+
+def grade_section(section: Section, profile: ToleranceProfile, search: bool = False) -> StationResult:
+    """Fit both sides at one station and grade G0..G3 against the profile (in the part's units)."""
+    shift = find_transition(section) if (search and section.welded) else 0.0
+    _, _, a, b = fit_sides(section, shift)
     k = profile.coverage
     gap = float(np.linalg.norm(b.point - a.point))
     turn = (b.values[1] - a.values[1] + np.pi) % (2 * np.pi) - np.pi

@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from surfcheck.continuity import ORDERS, UNITS, SeamGrade, SideEstimate, StationResult, _split_at, fit_side
+from surfcheck.continuity import ORDERS, UNITS, SeamGrade, SideEstimate, StationResult, fit_sides
 from surfcheck.render import STATUS_COLOURS, STATUS_TEXT
 from surfcheck.sections import Section
 
@@ -42,13 +42,7 @@ class StationSides:
 def station_sides(section: Section, station: StationResult) -> StationSides:
     """Both sides' data and one-sided fits at a graded station, recomputed with the grader's functions
     (the transition shift is the station's own)."""
-    if station.shift != 0.0:
-        data_a, data_b, end = _split_at(section, station.shift)
-        end_a = end_b = end
-    else:
-        data_a, data_b, end_a, end_b = section.side_a, section.side_b, section.end_a, section.end_b
-    return StationSides(data_a, data_b, fit_side(data_a, end_a, -1.0, section.edge),
-                        fit_side(data_b, end_b, 1.0, section.edge))
+    return StationSides(*fit_sides(section, station.shift))
 
 
 def model_curve(side: SideEstimate, sign: float, length: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

@@ -139,6 +139,7 @@ def cut_sections(
     positions = station_positions(polyline.length, seam.closed, stations, spacing, 2.0 * strip)
     V = part.vertices
     trees = (cKDTree(V[ids_a]), cKDTree(V[ids_b]))
+    nearest_seam = _SeamLocator(seam.points, seam.closed, 0.25 * h)
     border_b = None if welded else border_vertices(part, group_b)
     groups = (part.group_index(group_a), part.group_index(group_b))
     sections = []
@@ -157,6 +158,9 @@ def cut_sections(
             # along the mesh a point of this side is about as far as in space; the far side of a
             # small loop (or another sheet) that enters the ball is much farther
             inside &= path <= GEODESIC_SLACK * np.linalg.norm(coords + along[:, None] * frame.tangent, axis=1) + 3.0 * h
+            # and a point belongs to this station only if the seam point nearest to it does (on a
+            # small loop the far side projects onto the station's tangent line, too)
+            inside &= nearest_seam.offset(V[near], s) <= width + h
             mapped.append((near[inside], coords[inside]))
         (near_a, rel_a), (near_b, rel_b) = mapped
         if len(near_a) == 0 or len(near_b) == 0:
@@ -283,6 +287,29 @@ class _SeamPolyline:
         if self.closed:
             return np.ones(len(along), dtype=bool)
         return (s + along >= -margin) & (s + along <= self.length + margin)
+
+
+class _SeamLocator:
+    """Arc length of the seam point nearest to given points, from the seam sampled ``spacing`` apart."""
+
+    def __init__(self, points: np.ndarray, closed: bool, spacing: float) -> None:
+        ring = np.vstack([points, points[:1]]) if closed else points
+        steps = np.linalg.norm(np.diff(ring, axis=0), axis=1)
+        count = np.maximum(1, np.ceil(steps / max(spacing, 1e-300)).astype(int))
+        t = np.concatenate([np.arange(c) / c for c in count] + [[1.0]])
+        segment = np.concatenate([np.full(c, i) for i, c in enumerate(count)] + [[len(steps) - 1]])
+        start = np.concatenate([[0.0], np.cumsum(steps)])
+        self.arc = start[segment] + t * steps[segment]
+        self.tree = cKDTree(ring[segment] + t[:, None] * (ring[segment + 1] - ring[segment]))
+        self.length = float(start[-1])
+        self.closed = closed
+
+    def offset(self, points: np.ndarray, s: float) -> np.ndarray:
+        """|arc length of the nearest seam point - s| (around the loop on a closed seam)."""
+        if len(points) == 0:
+            return np.zeros(0)
+        delta = np.abs(self.arc[self.tree.query(points)[1]] - s)
+        return np.minimum(delta, self.length - delta) if self.closed else delta
 
 
 def _path_lengths(part: Part, vertices: np.ndarray, origin: np.ndarray, limit: float) -> np.ndarray:

@@ -20,9 +20,6 @@ PROFILE = load_profile("general")
 
 NOT_RESOLVED = "grader: reads a G1 or G2 jump that the exact section jets do not have"
 KNOWN = {
-    ("plane and cylinder", 2): NOT_RESOLVED,
-    ("plane and cylinder", 3): NOT_RESOLVED,
-    ("plane and parabolic sheet", 1): NOT_RESOLVED,
     ("plane and parabolic sheet", 2): NOT_RESOLVED,
     ("plane and parabolic sheet", 3): NOT_RESOLVED,
 }

@@ -68,8 +68,6 @@ def test_a_nominal_without_groups_is_refused():
         transfer_groups(scan, scan)
 
 
-@pytest.mark.xfail(strict=True, reason="the grader at continuity.py f1d935a grades the clean nominal's circular "
-                   "fillet and G2 blend as G1 failures and flips G3 on noise; remove this mark when it is fixed")
 def test_grading_a_scan_through_the_nominal_groups_matches_the_clean_nominal():
     """The demo housing (surfcheck.demo: seams built G0, G1, G2 and G3) and a scan of it made with the
     demo's own noise and scanner motion: each seam's per-order status on the scan labelled by transfer

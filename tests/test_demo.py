@@ -30,3 +30,17 @@ def test_grouped_samples_have_every_designed_seam():
         assert pairs == set(DESIGNED), name
     scan = load_part(SAMPLES / "housing-scan.stl")
     assert scan.group_names == ("part",)  # the scan carries no groups
+
+
+def test_nominal_sample_grades_as_built():
+    # Reference: the class each seam was built to (surfcheck.demo.DESIGNED): a heading jump is G0, a
+    # line into a circular arc G1 (curvature 0 -> 1/r, a handbook fact), a clothoid G2 (curvature
+    # linear in arc length, the Euler spiral), a cubic smooth-step curvature ramp G3 (its derivative
+    # vanishes at both ends: Hermite smoothstep, Ebert et al., Texturing and Modeling).
+    from surfcheck.continuity import grade_seam
+    from surfcheck.tolerances import load_profile
+
+    part = load_part(SAMPLES / "housing.obj")
+    profile = load_profile("general")
+    achieved = {seam.groups: grade_seam(part, seam, profile).achieved for seam in SeamIndex(part).seams}
+    assert achieved == DESIGNED

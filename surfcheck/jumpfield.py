@@ -21,6 +21,8 @@ import numpy as np
 
 from surfcheck.differential import (
     MAX_RADIUS,
+    ColumnGrid,
+    MIN_RADIUS,
     Neighbourhoods,
     _as_mesh,
     _default_radius,
@@ -98,7 +100,8 @@ def jump_fields(
     hood = Neighbourhoods.of_mesh(V, F, normals)
     if radius is None:
         edge = mean_edge_length(V, F)
-        radius = min(JUMP_RADIUS * _default_radius(hood, edge), MAX_RADIUS * edge)
+        grid = ColumnGrid.of_mesh(V, F, normals, MIN_RADIUS * edge)
+        radius = min(JUMP_RADIUS * _default_radius(grid, normals, edge), MAX_RADIUS * edge)
     hood = hood.at_radius(radius)
 
     def chunk(rows: np.ndarray):

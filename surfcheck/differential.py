@@ -477,6 +477,13 @@ def _jet_kernel(P, N, start, axes, ny, low0, low1, side, rows, radius, slots, de
     ridge, then graph_curvatures' closed form and the quality of the neighbourhood."""
     n_rows = len(rows)
     p = (degree + 1) * (degree + 2) // 2
+    top = 2 * degree
+    ex, ey = np.empty(p, np.int64), np.empty(p, np.int64)  # jet_exponents' order: 1, x, y, x^2, xy, y^2, ...
+    k = 0
+    for total in range(degree + 1):
+        for a in range(total, -1, -1):
+            ex[k], ey[k] = a, total - a
+            k += 1
     a0, a1, a2 = axes[0], axes[1], axes[2]
     nx = (len(start) - 1) // ny
     reach = int(np.ceil(radius / side))
@@ -485,16 +492,15 @@ def _jet_kernel(P, N, start, axes, ny, low0, low1, side, rows, radius, slots, de
     d1o, d2o, no = np.full((n_rows, 3), np.nan), np.full((n_rows, 3), np.nan), np.full((n_rows, 3), np.nan)
     counto, qualo, rmso = np.zeros(n_rows, np.int64), np.zeros(n_rows), np.zeros(n_rows)
     block = 256
-    for b in numba.prange((n_rows + block - 1) // block):
+    for chunk in numba.prange((n_rows + block - 1) // block):
         M = np.empty((p, p))
         rhs = np.empty(p)
-        mono = np.empty(p)
         coef = np.empty(p)
-        xp = np.empty(degree * 2 + 1)
-        yp = np.empty(degree * 2 + 1)
+        S = np.empty((top + 1, top + 1))
+        Z = np.empty((degree + 1, degree + 1))
         found = np.empty(4 * slots + 64, np.int64)
         gap = np.empty(4 * slots + 64)
-        for r in range(b * block, min((b + 1) * block, n_rows)):
+        for r in range(chunk * block, min((chunk + 1) * block, n_rows)):
             i = rows[r]
             n0, n1, n2 = N[i, 0], N[i, 1], N[i, 2]
             if n0 == 0.0 and n1 == 0.0 and n2 == 0.0:
@@ -521,10 +527,9 @@ def _jet_kernel(P, N, start, axes, ny, low0, low1, side, rows, radius, slots, de
                 bound = ranked[slots - 1]
                 at_bound = slots - np.searchsorted(ranked, bound)  # ties at the bound still allowed
             # the normal equations of the facing points
-            M[:, :] = 0.0
-            rhs[:] = 0.0
-            zz = sx = sy = sxy2 = 0.0
-            count = 0
+            S[:, :] = 0.0
+            Z[:, :] = 0.0
+            zz = 0.0
             for slot in range(inside):
                 j, dd = found[slot], gap[slot]
                 if dd > bound:
@@ -535,30 +540,32 @@ def _jet_kernel(P, N, start, axes, ny, low0, low1, side, rows, radius, slots, de
                     at_bound -= 1
                 if N[j, 0] * n0 + N[j, 1] * n1 + N[j, 2] * n2 <= 0.0:
                     continue
-                d0, d1, d2 = (P[j, 0] - P[i, 0]) / radius, (P[j, 1] - P[i, 1]) / radius, 0.0
+                d0, d1 = (P[j, 0] - P[i, 0]) / radius, (P[j, 1] - P[i, 1]) / radius
                 d2 = (P[j, 2] - P[i, 2]) / radius
                 x = d0 * u0 + d1 * u1 + d2 * u2
                 y = d0 * v0 + d1 * v1 + d2 * v2
                 z = d0 * n0 + d1 * n1 + d2 * n2
-                xp[0] = yp[0] = 1.0
-                for e in range(1, degree + 1):
-                    xp[e] = xp[e - 1] * x
-                    yp[e] = yp[e - 1] * y
-                k = 0
-                for total in range(degree + 1):
-                    for a in range(total, -1, -1):
-                        mono[k] = xp[a] * yp[total - a]
-                        k += 1
-                for s in range(p):
-                    ms = mono[s]
-                    rhs[s] += ms * z
-                    for t in range(s, p):
-                        M[s, t] += ms * mono[t]
+                # power sums sum x^a y^b (a + b <= 2 degree) and sum z x^a y^b (a + b <= degree)
+                xa = 1.0
+                for a in range(top + 1):
+                    term = xa
+                    for b in range(top + 1 - a):
+                        S[a, b] += term
+                        term *= y
+                    xa *= x
+                xa = z
+                for a in range(degree + 1):
+                    term = xa
+                    for b in range(degree + 1 - a):
+                        Z[a, b] += term
+                        term *= y
+                    xa *= x
                 zz += z * z
-                sx += x
-                sy += y
-                sxy2 += x * x + y * y
-                count += 1
+            count = int(S[0, 0])
+            for s in range(p):
+                rhs[s] = Z[ex[s], ey[s]]
+                for t in range(s, p):
+                    M[s, t] = S[ex[s] + ex[t], ey[s] + ey[t]]
             # Cholesky factor in the lower triangle of M (upper holds the matrix), solve in place
             trace = 0.0
             for s in range(p):
@@ -606,8 +613,8 @@ def _jet_kernel(P, N, start, axes, ny, low0, low1, side, rows, radius, slots, de
             d2o[r, 0], d2o[r, 1], d2o[r, 2] = m1 * g2 - m2 * g1, m2 * g0 - m0 * g2, m0 * g1 - m1 * g0
             # quality: balance of the neighbourhood times its size (_neighbourhood_quality's rule)
             safe = max(count, 1)
-            spread = np.sqrt(sxy2 / safe)
-            offset = np.sqrt(sx * sx + sy * sy) / safe
+            spread = np.sqrt((S[2, 0] + S[0, 2]) / safe)
+            offset = np.sqrt(S[1, 0] ** 2 + S[0, 1] ** 2) / safe
             balance = 1.0 - (offset / (HALF_DISC * max(spread, 1e-300))) ** 2
             size = (count - p) / p
             qualo[r] = min(max(balance, 0.0), 1.0) * min(max(size, 0.0), 1.0)

@@ -52,8 +52,8 @@ def _unit(x: np.ndarray) -> np.ndarray:
     return np.divide(x, norm, out=np.zeros_like(x), where=norm > 0)
 
 
-def _triangle_geometry(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Per triangle: the cross product (b - a) x (c - a), (m, 3), and the corner angles (m, 3), radians.
+def _corner_angles(V: np.ndarray, F: np.ndarray) -> np.ndarray:
+    """(m, 3) interior angle of each triangle at each of its corners, radians.
 
     The three corner angles share one sine term, |cross| (twice the area), so each costs one dot
     product and one arctan2.
@@ -63,12 +63,7 @@ def _triangle_geometry(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.nda
     cross = np.cross(ab, -ca)
     double_area = np.sqrt(np.einsum("ij,ij->i", cross, cross))
     dots = [-np.einsum("ij,ij->i", ab, ca), -np.einsum("ij,ij->i", bc, ab), -np.einsum("ij,ij->i", ca, bc)]
-    return cross, np.arctan2(double_area[:, None], np.stack(dots, axis=1))
-
-
-def _corner_angles(V: np.ndarray, F: np.ndarray) -> np.ndarray:
-    """(m, 3) interior angle of each triangle at each of its corners, radians."""
-    return _triangle_geometry(V, F)[1]
+    return np.arctan2(double_area[:, None], np.stack(dots, axis=1))
 
 
 def _cotangents(angle: np.ndarray) -> np.ndarray:
@@ -86,6 +81,46 @@ def _scatter(F: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
     return np.stack([np.bincount(idx, weights=flat[:, j], minlength=n) for j in range(flat.shape[1])], 1)
 
 
+@numba.njit(cache=True)
+def _mesh_measures(V, F):
+    """One pass over the triangles: angle-weighted vertex normals (Thurmer and Wuthrich 1998), the
+    mean edge length, the total area and the number of vertices some triangle uses."""
+    summed = np.zeros((len(V), 3))
+    edges = area = 0.0
+    side = np.empty((3, 3))  # side k runs from corner k to corner k + 1
+    for f in range(len(F)):
+        corner = (F[f, 0], F[f, 1], F[f, 2])
+        for k in range(3):
+            for j in range(3):
+                side[k, j] = V[corner[(k + 1) % 3], j] - V[corner[k], j]
+        c0 = side[0, 1] * side[2, 2] - side[0, 2] * side[2, 1]  # ab x ca = -(b - a) x (c - a)
+        c1 = side[0, 2] * side[2, 0] - side[0, 0] * side[2, 2]
+        c2 = side[0, 0] * side[2, 1] - side[0, 1] * side[2, 0]
+        double_area = np.sqrt(c0 * c0 + c1 * c1 + c2 * c2)
+        for k in range(3):
+            edges += np.sqrt(side[k, 0] ** 2 + side[k, 1] ** 2 + side[k, 2] ** 2)
+        area += 0.5 * double_area
+        if double_area == 0.0:
+            continue
+        for k in range(3):  # the angle at corner k lies between side k and the reversed side k - 1
+            previous = (k + 2) % 3
+            dot = -(side[k, 0] * side[previous, 0] + side[k, 1] * side[previous, 1]
+                    + side[k, 2] * side[previous, 2])
+            weight = np.arctan2(double_area, dot) / double_area
+            summed[corner[k], 0] -= weight * c0
+            summed[corner[k], 1] -= weight * c1
+            summed[corner[k], 2] -= weight * c2
+    used = np.zeros(len(V), np.bool_)
+    for f in range(len(F)):
+        for k in range(3):
+            used[F[f, k]] = True
+    for i in range(len(V)):
+        length = np.sqrt(np.sum(summed[i] * summed[i]))
+        if length > 0.0:
+            summed[i] /= length
+    return summed, edges / (3 * len(F)), area, max(np.count_nonzero(used), 1)
+
+
 def vertex_normals(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     """(n, 3) unit vertex normals, face normals weighted by the corner angle (Thurmer and Wuthrich 1998).
 
@@ -93,14 +128,7 @@ def vertex_normals(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     uses gets the zero vector.
     """
     V, F = _as_mesh(V, F)
-    cross, angle = _triangle_geometry(V, F)
-    face_normal = _unit(cross)
-    n = len(V)
-    summed = np.zeros((n, 3))
-    for i in range(3):  # corners
-        for j in range(3):  # coordinates
-            summed[:, j] += np.bincount(F[:, i], weights=angle[:, i] * face_normal[:, j], minlength=n)
-    return _unit(summed)
+    return _mesh_measures(V, F)[0]
 
 
 def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -113,8 +141,8 @@ def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 def mean_edge_length(V: np.ndarray, F: np.ndarray) -> float:
     """Mean length of the triangles' edges (each interior edge counted from both sides)."""
-    P = V[F]
-    return float(np.linalg.norm(P - np.roll(P, 1, axis=1), axis=2).mean())
+    V, F = _as_mesh(V, F)
+    return float(_mesh_measures(V, F)[1])
 
 
 # ---------------------------------------------------------------------------------------------------
@@ -382,25 +410,18 @@ class ColumnGrid:
     density: float  # vertices per unit area
 
     @classmethod
-    def of_mesh(cls, V: np.ndarray, F: np.ndarray, normals: np.ndarray, side: float) -> "ColumnGrid":
+    def of_vertices(cls, V: np.ndarray, normals: np.ndarray, density: float, side: float) -> "ColumnGrid":
+        """The grid of columns of at least ``side`` over V; ``density`` is vertices per unit area."""
         extent = V.max(axis=0) - V.min(axis=0)
-        axes = np.argsort(-extent, kind="stable")
+        axes = np.argsort(-extent, kind="stable").astype(np.int64)
         side = max(float(side), float(np.sqrt(extent[axes[0]] * extent[axes[1]] / (4.0 * len(V)))), 1e-300)
         low = V[:, axes[:2]].min(axis=0)
-        cell = np.floor((V[:, axes[:2]] - low) / side).astype(np.int64)
-        shape = cell.max(axis=0) + 1
-        column = cell[:, 0] * shape[1] + cell[:, 1]
-        order = np.lexsort((V[:, axes[2]], column))
+        shape = np.floor(extent[axes[:2]] / side).astype(np.int64) + 1
+        order, start = _column_order(V, axes, low[0], low[1], side, shape[0], shape[1])
         rank = np.empty_like(order)
         rank[order] = np.arange(len(order))
-        start = np.zeros(shape[0] * shape[1] + 1, dtype=np.int64)
-        np.cumsum(np.bincount(column, minlength=shape[0] * shape[1]), out=start[1:])
-        T = V[F]
-        area = 0.5 * np.linalg.norm(np.cross(T[:, 1] - T[:, 0], T[:, 2] - T[:, 0]), axis=1).sum()
-        used = max(int(np.count_nonzero(np.bincount(F.reshape(-1), minlength=len(V)))), 1)
         return cls(np.ascontiguousarray(V[order]), np.ascontiguousarray(normals[order]), order, rank, start,
-                   axes.astype(np.int64), (int(shape[0]), int(shape[1])), (float(low[0]), float(low[1])),
-                   side, used / max(area, 1e-300))
+                   axes, (int(shape[0]), int(shape[1])), (float(low[0]), float(low[1])), side, float(density))
 
     def slot_count(self, radius: float) -> int:
         """Most neighbours a fit takes: 1.6 times the points of a full disc of ``radius``, plus one, 12
@@ -424,6 +445,37 @@ class ColumnGrid:
             out[walk] = field
             results.append(out)
         return tuple(results)
+
+
+@numba.njit(cache=True)
+def _column_of(P, i, a0, a1, low0, low1, side, nx, ny):
+    c0 = min(max(int(np.floor((P[i, a0] - low0) / side)), 0), nx - 1)
+    c1 = min(max(int(np.floor((P[i, a1] - low1) / side)), 0), ny - 1)
+    return c0, c1
+
+
+@numba.njit(cache=True)
+def _column_order(V, axes, low0, low1, side, nx, ny):
+    """Counting sort of the vertices by column, then by height within each column."""
+    a0, a1, a2 = axes[0], axes[1], axes[2]
+    column = np.empty(len(V), np.int64)
+    start = np.zeros(nx * ny + 1, np.int64)
+    for i in range(len(V)):
+        c0, c1 = _column_of(V, i, a0, a1, low0, low1, side, nx, ny)
+        column[i] = c0 * ny + c1
+        start[column[i] + 1] += 1
+    for c in range(nx * ny):
+        start[c + 1] += start[c]
+    fill = start[:-1].copy()
+    order = np.empty(len(V), np.int64)
+    for i in range(len(V)):
+        order[fill[column[i]]] = i
+        fill[column[i]] += 1
+    for c in range(nx * ny):
+        run = order[start[c]:start[c + 1]]
+        if len(run) > 1:
+            order[start[c]:start[c + 1]] = run[np.argsort(V[run, a2], kind="mergesort")]
+    return order, start
 
 
 @numba.njit(cache=True, inline="always")
@@ -451,8 +503,7 @@ def _column_range(P, start, column, a2, lo, hi):
 def _gather_ball(P, start, a0, a1, a2, nx, ny, low0, low1, side, reach, i, radius, found, gap):
     """Sorted positions and squared distances of the points within ``radius`` of point i, written into
     ``found`` and ``gap`` as far as they hold; returns how many there are."""
-    c0 = int(np.floor((P[i, a0] - low0) / side))
-    c1 = int(np.floor((P[i, a1] - low1) / side))
+    c0, c1 = _column_of(P, i, a0, a1, low0, low1, side, nx, ny)
     zlo, zhi = P[i, a2] - radius, P[i, a2] + radius
     r2 = radius * radius
     inside = 0
@@ -467,6 +518,18 @@ def _gather_ball(P, start, a0, a1, a2, nx, ny, low0, low1, side, reach, i, radiu
                         found[inside], gap[inside] = j, dd
                     inside += 1
     return inside
+
+
+@numba.njit(cache=True, inline="always")
+def _add_monomials(T, value, x, y, top):
+    """T[a, b] += value x^a y^b for every a + b <= top."""
+    xa = value
+    for a in range(top + 1):
+        term = xa
+        for b in range(top + 1 - a):
+            T[a, b] += term
+            term *= y
+        xa *= x
 
 
 @numba.njit(cache=True, parallel=True, fastmath=False)
@@ -545,21 +608,8 @@ def _jet_kernel(P, N, start, axes, ny, low0, low1, side, rows, radius, slots, de
                 x = d0 * u0 + d1 * u1 + d2 * u2
                 y = d0 * v0 + d1 * v1 + d2 * v2
                 z = d0 * n0 + d1 * n1 + d2 * n2
-                # power sums sum x^a y^b (a + b <= 2 degree) and sum z x^a y^b (a + b <= degree)
-                xa = 1.0
-                for a in range(top + 1):
-                    term = xa
-                    for b in range(top + 1 - a):
-                        S[a, b] += term
-                        term *= y
-                    xa *= x
-                xa = z
-                for a in range(degree + 1):
-                    term = xa
-                    for b in range(degree + 1 - a):
-                        Z[a, b] += term
-                        term *= y
-                    xa *= x
+                _add_monomials(S, 1.0, x, y, top)  # power sums sum x^a y^b, a + b <= 2 degree
+                _add_monomials(Z, z, x, y, degree)  # and sum z x^a y^b, a + b <= degree
                 zz += z * z
             count = int(S[0, 0])
             for s in range(p):
@@ -660,10 +710,9 @@ def _default_radius(grid: ColumnGrid, normals: np.ndarray, edge: float) -> float
 def _grid_of(V: np.ndarray, F: np.ndarray, radius: float | None = None):
     """Normals, mean edge length and the column grid of a mesh (columns of the radius, or of the
     smallest default radius when none is given)."""
-    normals = vertex_normals(V, F)
-    edge = mean_edge_length(V, F)
+    normals, edge, area, used = _mesh_measures(V, F)
     side = MIN_RADIUS * edge if radius is None else radius
-    return normals, edge, ColumnGrid.of_mesh(V, F, normals, side)
+    return normals, edge, ColumnGrid.of_vertices(V, normals, used / max(area, 1e-300), side)
 
 
 def noise_level(V: np.ndarray, F: np.ndarray) -> float:

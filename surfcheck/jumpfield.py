@@ -21,18 +21,15 @@ import numpy as np
 
 from surfcheck.differential import (
     MAX_RADIUS,
-    ColumnGrid,
-    MIN_RADIUS,
     Neighbourhoods,
     _as_mesh,
     _default_radius,
+    _grid_of,
     _in_parallel,
     _jet_at,
     fit_height,
     jet_exponents,
     jet_shape,
-    mean_edge_length,
-    vertex_normals,
 )
 from surfcheck.errors import InputError
 
@@ -96,11 +93,9 @@ def jump_fields(
     if directions < 1:
         raise InputError(f"the jump fields need at least one cut direction, not {directions}")
     exponents = half_fit_exponents(degree)
-    normals = vertex_normals(V, F)
+    normals, edge, grid = _grid_of(V, F)
     hood = Neighbourhoods.of_mesh(V, F, normals)
     if radius is None:
-        edge = mean_edge_length(V, F)
-        grid = ColumnGrid.of_mesh(V, F, normals, MIN_RADIUS * edge)
         radius = min(JUMP_RADIUS * _default_radius(grid, normals, edge), MAX_RADIUS * edge)
     hood = hood.at_radius(radius)
 

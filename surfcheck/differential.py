@@ -2,11 +2,13 @@
 
 Principal curvatures come from a local polynomial ("jet") fit of the surface as a height function over
 the tangent plane (Cazals and Pouget 2003, "Estimating differential quantities using polynomial fitting
-of osculating jets"; Goldfeather and Interrante 2004), over a metric neighbourhood found with a k-d
-tree. Every vertex is fitted at once in chunks: the least-squares normal equations are assembled from
-power sums of the neighbours' local coordinates and solved by a batched Cholesky factorisation, and the
-2x2 shape operator is diagonalised in closed form. Mean and Gaussian curvature are also offered from
-the cotangent Laplacian and the angle defect (Meyer, Desbrun, Schroder and Barr 2003).
+of osculating jets"; Goldfeather and Interrante 2004), over a metric neighbourhood. The whole-mesh
+fit runs in a compiled kernel (numba): neighbours from a column grid, the least-squares normal
+equations assembled from power sums of the neighbours' local coordinates and solved by Cholesky per
+vertex, the 2x2 shape operator diagonalised in closed form. The batched numpy fits over k-d tree
+neighbourhoods (Neighbourhoods, fit_height) serve the one-sided fits of the jump fields. Mean and
+Gaussian curvature are also offered from the cotangent Laplacian and the angle defect (Meyer, Desbrun,
+Schroder and Barr 2003).
 
 Sign convention: a curvature is positive where the surface bends away from its outward normal (an
 outward-wound sphere has k1 = k2 = +1/R); k1 >= k2. Radians inside, curvature in 1/unit.
@@ -298,6 +300,20 @@ class Curvature:
         return self.k1 * self.k2
 
 
+def _check_radius(radius: float) -> None:
+    if not np.isfinite(radius) or radius <= 0:
+        raise InputError(f"the neighbourhood radius must be a positive length, not {radius}")
+
+
+def slot_count(radius: float, density: float, n: int, scale: float = 1.0) -> int:
+    """Most neighbours a fit takes: ``scale`` times 1.6 times the points of a full disc of ``radius`` (at
+    ``density`` vertices per unit area), plus one, 12 to 512 and at most n: where the mesh is much
+    denser than average a vertex takes its nearest points within the radius."""
+    _check_radius(radius)
+    expected = np.pi * radius * radius * density
+    return min(int(np.clip(np.ceil(scale * 1.6 * expected) + 1, 12, 512)), n)
+
+
 @dataclass(frozen=True)
 class Neighbourhoods:
     """A k-d tree over the vertices plus the rule for querying it: radius and neighbour count."""
@@ -320,11 +336,8 @@ class Neighbourhoods:
 
     def at_radius(self, radius: float, scale: float = 1.0) -> "Neighbourhoods":
         """The same tree queried within ``radius``, allowing ``scale`` times the points of a full disc."""
-        if not np.isfinite(radius) or radius <= 0:
-            raise InputError(f"the neighbourhood radius must be a positive length, not {radius}")
-        expected = np.pi * radius * radius * self.density
-        count = int(np.clip(np.ceil(scale * 1.6 * expected) + 1, 12, 512))
-        return replace(self, radius=float(radius), count=min(count, len(self.V)))
+        count = slot_count(radius, self.density, len(self.V), scale)
+        return replace(self, radius=float(radius), count=count)
 
     def local(self, rows: np.ndarray, frames: tuple[np.ndarray, np.ndarray, np.ndarray]):
         """Neighbours of the vertices ``rows`` in their local frames, scaled by the radius.
@@ -394,7 +407,7 @@ class ColumnGrid:
     The ball of radius r around a vertex lies in the (2m + 1)^2 columns around its own (m = ceil(r /
     side)) and, within each, in one run of heights found by bisection: a cell-based fixed-radius
     near-neighbour search (Bentley, Stanat and Williams 1977) that visits only the points of those
-    runs. The column side is at least ``side`` and large enough that there are at most about four
+    runs. The column side is at least ``side`` and large enough that there are at most about eight
     columns per vertex, so memory stays linear in the mesh size.
     """
 
@@ -414,7 +427,8 @@ class ColumnGrid:
         """The grid of columns of at least ``side`` over V; ``density`` is vertices per unit area."""
         extent = V.max(axis=0) - V.min(axis=0)
         axes = np.argsort(-extent, kind="stable").astype(np.int64)
-        side = max(float(side), float(np.sqrt(extent[axes[0]] * extent[axes[1]] / (4.0 * len(V)))), 1e-300)
+        wide, narrow, n = float(extent[axes[0]]), float(extent[axes[1]]), 4.0 * len(V)
+        side = max(float(side), np.sqrt(wide * narrow / n), wide / n, 1e-300)  # at most ~8n columns
         low = V[:, axes[:2]].min(axis=0)
         shape = np.floor(extent[axes[:2]] / side).astype(np.int64) + 1
         order, start = _column_order(V, axes, low[0], low[1], side, shape[0], shape[1])
@@ -424,12 +438,7 @@ class ColumnGrid:
                    axes, (int(shape[0]), int(shape[1])), (float(low[0]), float(low[1])), side, float(density))
 
     def slot_count(self, radius: float) -> int:
-        """Most neighbours a fit takes: 1.6 times the points of a full disc of ``radius``, plus one, 12
-        to 512 (where the mesh is much denser than average a vertex takes its nearest points)."""
-        if not np.isfinite(radius) or radius <= 0:
-            raise InputError(f"the neighbourhood radius must be a positive length, not {radius}")
-        expected = np.pi * radius * radius * self.density
-        return min(int(np.clip(np.ceil(1.6 * expected) + 1, 12, 512)), len(self.order))
+        return slot_count(radius, self.density, len(self.order))
 
     def jets(self, rows: np.ndarray, radius: float, degree: int):
         """Jet fits of total degree ``degree`` within ``radius`` at the vertices ``rows`` (_jet_kernel):
@@ -757,8 +766,8 @@ def principal_curvatures(
     V, F = _as_mesh(V, F)
     if not 2 <= degree <= 4:
         raise InputError(f"curvature needs a jet of degree 2 to 4, not {degree}")
-    if radius is not None and (not np.isfinite(radius) or radius <= 0):
-        raise InputError(f"the neighbourhood radius must be a positive length, not {radius}")
+    if radius is not None:
+        _check_radius(radius)
     normals, edge, grid = _grid_of(V, F, radius)
     if radius is None:
         radius = _default_radius(grid, normals, edge)

@@ -2,11 +2,13 @@
 
 Principal curvatures come from a local polynomial ("jet") fit of the surface as a height function over
 the tangent plane (Cazals and Pouget 2003, "Estimating differential quantities using polynomial fitting
-of osculating jets"; Goldfeather and Interrante 2004), over a metric neighbourhood found with a k-d
-tree. Every vertex is fitted at once in chunks: the least-squares normal equations are assembled from
-power sums of the neighbours' local coordinates and solved by a batched Cholesky factorisation, and the
-2x2 shape operator is diagonalised in closed form. Mean and Gaussian curvature are also offered from
-the cotangent Laplacian and the angle defect (Meyer, Desbrun, Schroder and Barr 2003).
+of osculating jets"; Goldfeather and Interrante 2004), over a metric neighbourhood. The whole-mesh
+fit runs in a compiled kernel (numba): neighbours from a column grid, the least-squares normal
+equations assembled from power sums of the neighbours' local coordinates and solved by Cholesky per
+vertex, the 2x2 shape operator diagonalised in closed form. The batched numpy fits over k-d tree
+neighbourhoods (Neighbourhoods, fit_height) serve the one-sided fits of the jump fields. Mean and
+Gaussian curvature are also offered from the cotangent Laplacian and the angle defect (Meyer, Desbrun,
+Schroder and Barr 2003).
 
 Sign convention: a curvature is positive where the surface bends away from its outward normal (an
 outward-wound sphere has k1 = k2 = +1/R); k1 >= k2. Radians inside, curvature in 1/unit.
@@ -19,6 +21,7 @@ from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, replace
 from functools import cached_property
 
+import numba
 import numpy as np
 from scipy.spatial import cKDTree
 
@@ -51,8 +54,8 @@ def _unit(x: np.ndarray) -> np.ndarray:
     return np.divide(x, norm, out=np.zeros_like(x), where=norm > 0)
 
 
-def _triangle_geometry(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Per triangle: the cross product (b - a) x (c - a), (m, 3), and the corner angles (m, 3), radians.
+def _corner_angles(V: np.ndarray, F: np.ndarray) -> np.ndarray:
+    """(m, 3) interior angle of each triangle at each of its corners, radians.
 
     The three corner angles share one sine term, |cross| (twice the area), so each costs one dot
     product and one arctan2.
@@ -62,12 +65,7 @@ def _triangle_geometry(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.nda
     cross = np.cross(ab, -ca)
     double_area = np.sqrt(np.einsum("ij,ij->i", cross, cross))
     dots = [-np.einsum("ij,ij->i", ab, ca), -np.einsum("ij,ij->i", bc, ab), -np.einsum("ij,ij->i", ca, bc)]
-    return cross, np.arctan2(double_area[:, None], np.stack(dots, axis=1))
-
-
-def _corner_angles(V: np.ndarray, F: np.ndarray) -> np.ndarray:
-    """(m, 3) interior angle of each triangle at each of its corners, radians."""
-    return _triangle_geometry(V, F)[1]
+    return np.arctan2(double_area[:, None], np.stack(dots, axis=1))
 
 
 def _cotangents(angle: np.ndarray) -> np.ndarray:
@@ -85,6 +83,46 @@ def _scatter(F: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
     return np.stack([np.bincount(idx, weights=flat[:, j], minlength=n) for j in range(flat.shape[1])], 1)
 
 
+@numba.njit(cache=True)
+def _mesh_measures(V, F):
+    """One pass over the triangles: angle-weighted vertex normals (Thurmer and Wuthrich 1998), the
+    mean edge length, the total area and the number of vertices some triangle uses."""
+    summed = np.zeros((len(V), 3))
+    edges = area = 0.0
+    side = np.empty((3, 3))  # side k runs from corner k to corner k + 1
+    for f in range(len(F)):
+        corner = (F[f, 0], F[f, 1], F[f, 2])
+        for k in range(3):
+            for j in range(3):
+                side[k, j] = V[corner[(k + 1) % 3], j] - V[corner[k], j]
+        c0 = side[0, 1] * side[2, 2] - side[0, 2] * side[2, 1]  # ab x ca = -(b - a) x (c - a)
+        c1 = side[0, 2] * side[2, 0] - side[0, 0] * side[2, 2]
+        c2 = side[0, 0] * side[2, 1] - side[0, 1] * side[2, 0]
+        double_area = np.sqrt(c0 * c0 + c1 * c1 + c2 * c2)
+        for k in range(3):
+            edges += np.sqrt(side[k, 0] ** 2 + side[k, 1] ** 2 + side[k, 2] ** 2)
+        area += 0.5 * double_area
+        if double_area == 0.0:
+            continue
+        for k in range(3):  # the angle at corner k lies between side k and the reversed side k - 1
+            previous = (k + 2) % 3
+            dot = -(side[k, 0] * side[previous, 0] + side[k, 1] * side[previous, 1]
+                    + side[k, 2] * side[previous, 2])
+            weight = np.arctan2(double_area, dot) / double_area
+            summed[corner[k], 0] -= weight * c0
+            summed[corner[k], 1] -= weight * c1
+            summed[corner[k], 2] -= weight * c2
+    used = np.zeros(len(V), np.bool_)
+    for f in range(len(F)):
+        for k in range(3):
+            used[F[f, k]] = True
+    for i in range(len(V)):
+        length = np.sqrt(np.sum(summed[i] * summed[i]))
+        if length > 0.0:
+            summed[i] /= length
+    return summed, edges / (3 * len(F)), area, max(np.count_nonzero(used), 1)
+
+
 def vertex_normals(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     """(n, 3) unit vertex normals, face normals weighted by the corner angle (Thurmer and Wuthrich 1998).
 
@@ -92,14 +130,7 @@ def vertex_normals(V: np.ndarray, F: np.ndarray) -> np.ndarray:
     uses gets the zero vector.
     """
     V, F = _as_mesh(V, F)
-    cross, angle = _triangle_geometry(V, F)
-    face_normal = _unit(cross)
-    n = len(V)
-    summed = np.zeros((n, 3))
-    for i in range(3):  # corners
-        for j in range(3):  # coordinates
-            summed[:, j] += np.bincount(F[:, i], weights=angle[:, i] * face_normal[:, j], minlength=n)
-    return _unit(summed)
+    return _mesh_measures(V, F)[0]
 
 
 def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -112,8 +143,8 @@ def tangent_frames(normals: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 def mean_edge_length(V: np.ndarray, F: np.ndarray) -> float:
     """Mean length of the triangles' edges (each interior edge counted from both sides)."""
-    P = V[F]
-    return float(np.linalg.norm(P - np.roll(P, 1, axis=1), axis=2).mean())
+    V, F = _as_mesh(V, F)
+    return float(_mesh_measures(V, F)[1])
 
 
 # ---------------------------------------------------------------------------------------------------
@@ -193,6 +224,36 @@ def _power_sum(xa: np.ndarray | None, yb: np.ndarray) -> np.ndarray:
     return yb.sum(axis=1) if xa is None else np.einsum("ck,ck->c", xa, yb)
 
 
+@numba.njit(cache=True)
+def _graph_shape(fx, fy, fxx, fxy, fyy):
+    """k1 >= k2 and the (x, y) parameter direction of k1 of the graph z = f(x, y) at the origin."""
+    W = np.sqrt(1.0 + fx * fx + fy * fy)
+    E, Fm, G = 1.0 + fx * fx, fx * fy, 1.0 + fy * fy
+    L, M, N = -fxx / W, -fxy / W, -fyy / W
+    det_I = E * G - Fm * Fm
+    H = (E * N + G * L - 2.0 * Fm * M) / (2.0 * det_I)
+    K = (L * N - M * M) / det_I
+    root = np.sqrt(max(H * H - K, 0.0))
+    k1, k2 = H + root, H - root
+    # (II - k1 I) v = 0: take the better conditioned of the two rows' null vectors.
+    a, b, d = L - k1 * E, M - k1 * Fm, N - k1 * G
+    if a * a + b * b >= b * b + d * d:
+        v0, v1 = b, -a
+    else:
+        v0, v1 = d, -b
+    if np.sqrt(v0 * v0 + v1 * v1) <= 1e-12 * (abs(k1) + 1e-300):
+        v0, v1 = 1.0, 0.0
+    return k1, k2, v0, v1
+
+
+@numba.njit(cache=True)
+def _graph_shapes(fx, fy, fxx, fxy, fyy):
+    k1, k2, v = np.empty(len(fx)), np.empty(len(fx)), np.empty((len(fx), 2))
+    for i in range(len(fx)):
+        k1[i], k2[i], v[i, 0], v[i, 1] = _graph_shape(fx[i], fy[i], fxx[i], fxy[i], fyy[i])
+    return k1, k2, v
+
+
 def graph_curvatures(fx, fy, fxx, fxy, fyy):
     """Principal curvatures and directions at the origin of the graph z = f(x, y).
 
@@ -200,23 +261,7 @@ def graph_curvatures(fx, fy, fxx, fxy, fyy):
     principal curvatures solve det(II - k I) = 0. The sign is flipped so that a graph bending down,
     away from +z, is positive. Returns k1 >= k2 and their directions as (c, 2) parameter vectors.
     """
-    W = np.sqrt(1.0 + fx * fx + fy * fy)
-    E, Fm, G = 1.0 + fx * fx, fx * fy, 1.0 + fy * fy
-    L, M, N = -fxx / W, -fxy / W, -fyy / W
-    det_I = E * G - Fm * Fm
-    H = (E * N + G * L - 2.0 * Fm * M) / (2.0 * det_I)
-    K = (L * N - M * M) / det_I
-    root = np.sqrt(np.maximum(H * H - K, 0.0))
-    k1, k2 = H + root, H - root
-    # (II - k1 I) v = 0: take the better conditioned of the two rows' null vectors.
-    a, b, d = L - k1 * E, M - k1 * Fm, N - k1 * G
-    v_row1 = np.stack([b, -a], axis=-1)
-    v_row2 = np.stack([d, -b], axis=-1)
-    use_row1 = (a * a + b * b) >= (b * b + d * d)
-    v1 = np.where(use_row1[:, None], v_row1, v_row2)
-    degenerate = np.linalg.norm(v1, axis=1) <= 1e-12 * (np.abs(k1) + 1e-300)
-    v1[degenerate] = (1.0, 0.0)
-    return k1, k2, v1
+    return _graph_shapes(*(np.ascontiguousarray(f, dtype=np.float64) for f in (fx, fy, fxx, fxy, fyy)))
 
 
 def jet_shape(coef: np.ndarray):
@@ -255,6 +300,20 @@ class Curvature:
         return self.k1 * self.k2
 
 
+def _check_radius(radius: float) -> None:
+    if not np.isfinite(radius) or radius <= 0:
+        raise InputError(f"the neighbourhood radius must be a positive length, not {radius}")
+
+
+def slot_count(radius: float, density: float, n: int, scale: float = 1.0) -> int:
+    """Most neighbours a fit takes: ``scale`` times 1.6 times the points of a full disc of ``radius`` (at
+    ``density`` vertices per unit area), plus one, 12 to 512 and at most n: where the mesh is much
+    denser than average a vertex takes its nearest points within the radius."""
+    _check_radius(radius)
+    expected = np.pi * radius * radius * density
+    return min(int(np.clip(np.ceil(scale * 1.6 * expected) + 1, 12, 512)), n)
+
+
 @dataclass(frozen=True)
 class Neighbourhoods:
     """A k-d tree over the vertices plus the rule for querying it: radius and neighbour count."""
@@ -277,11 +336,8 @@ class Neighbourhoods:
 
     def at_radius(self, radius: float, scale: float = 1.0) -> "Neighbourhoods":
         """The same tree queried within ``radius``, allowing ``scale`` times the points of a full disc."""
-        if not np.isfinite(radius) or radius <= 0:
-            raise InputError(f"the neighbourhood radius must be a positive length, not {radius}")
-        expected = np.pi * radius * radius * self.density
-        count = int(np.clip(np.ceil(scale * 1.6 * expected) + 1, 12, 512))
-        return replace(self, radius=float(radius), count=min(count, len(self.V)))
+        count = slot_count(radius, self.density, len(self.V), scale)
+        return replace(self, radius=float(radius), count=count)
 
     def local(self, rows: np.ndarray, frames: tuple[np.ndarray, np.ndarray, np.ndarray]):
         """Neighbours of the vertices ``rows`` in their local frames, scaled by the radius.
@@ -339,69 +395,333 @@ def _jet_at(hood: Neighbourhoods, rows: np.ndarray, degree: int):
     return coef, (t1, t2, n), residual, (x, y, z, w)
 
 
-def _neighbourhood_quality(x: np.ndarray, y: np.ndarray, w: np.ndarray, unknowns: int):
-    """Quality in [0, 1] from the balance of the neighbourhood and its size (see Curvature).
+# ---------------------------------------------------------------------------------------------------
+# Compiled jet fits: a fixed-radius neighbour search on a column grid and, per vertex, the normal
+# equations of the jet accumulated and solved in place (numba, parallel over vertices).
 
-    Balance compares the offset of the neighbours' centroid from the vertex with their RMS distance:
-    about 0 for a full disc, HALF_DISC (0.5 measured on grid meshes; 0.6 for a continuous half disc)
-    for a vertex on a straight open edge. Size counts the points beyond the unknowns.
+
+@dataclass(frozen=True)
+class ColumnGrid:
+    """Vertices sorted into square columns across the mesh's two widest axes, by height within each.
+
+    The ball of radius r around a vertex lies in the (2m + 1)^2 columns around its own (m = ceil(r /
+    side)) and, within each, in one run of heights found by bisection: a cell-based fixed-radius
+    near-neighbour search (Bentley, Stanat and Williams 1977) that visits only the points of those
+    runs. The column side is at least ``side`` and large enough that there are at most about eight
+    columns per vertex, so memory stays linear in the mesh size.
     """
-    count = w.sum(axis=1)
-    safe = np.maximum(count, 1.0)
-    spread = np.sqrt((w * (x * x + y * y)).sum(axis=1) / safe)
-    offset = np.hypot((w * x).sum(axis=1), (w * y).sum(axis=1)) / safe
-    balance = 1.0 - (offset / (HALF_DISC * np.maximum(spread, 1e-300))) ** 2
-    size = (count - unknowns) / unknowns
-    return np.clip(balance, 0.0, 1.0) * np.clip(size, 0.0, 1.0), count.astype(np.int64)
+
+    points: np.ndarray  # (n, 3) vertices in sorted order
+    normals: np.ndarray  # (n, 3) their normals
+    order: np.ndarray  # sorted position -> vertex index
+    rank: np.ndarray  # vertex index -> sorted position
+    start: np.ndarray  # (columns + 1,) first sorted position of each column
+    axes: np.ndarray  # the column axes and the height axis
+    shape: tuple[int, int]
+    low: tuple[float, float]
+    side: float
+    density: float  # vertices per unit area
+
+    @classmethod
+    def of_vertices(cls, V: np.ndarray, normals: np.ndarray, density: float, side: float) -> "ColumnGrid":
+        """The grid of columns of at least ``side`` over V; ``density`` is vertices per unit area."""
+        extent = V.max(axis=0) - V.min(axis=0)
+        axes = np.argsort(-extent, kind="stable").astype(np.int64)
+        wide, narrow, n = float(extent[axes[0]]), float(extent[axes[1]]), 4.0 * len(V)
+        side = max(float(side), np.sqrt(wide * narrow / n), wide / n, 1e-300)  # at most ~8n columns
+        low = V[:, axes[:2]].min(axis=0)
+        shape = np.floor(extent[axes[:2]] / side).astype(np.int64) + 1
+        order, start = _column_order(V, axes, low[0], low[1], side, shape[0], shape[1])
+        rank = np.empty_like(order)
+        rank[order] = np.arange(len(order))
+        return cls(np.ascontiguousarray(V[order]), np.ascontiguousarray(normals[order]), order, rank, start,
+                   axes, (int(shape[0]), int(shape[1])), (float(low[0]), float(low[1])), side, float(density))
+
+    def slot_count(self, radius: float) -> int:
+        return slot_count(radius, self.density, len(self.order))
+
+    def jets(self, rows: np.ndarray, radius: float, degree: int):
+        """Jet fits of total degree ``degree`` within ``radius`` at the vertices ``rows`` (_jet_kernel):
+        k1, k2 (1/unit), d1, d2, fitted normal, neighbour count, quality and residual RMS (part units)."""
+        position = self.rank[rows]
+        walk = np.argsort(position, kind="stable")  # visit the rows in grid order: neighbours in cache
+        fitted = _jet_kernel(self.points, self.normals, self.start, self.axes, self.shape[1], self.low[0],
+                             self.low[1], self.side, position[walk], float(radius), self.slot_count(radius),
+                             degree)
+        results = []
+        for field in fitted:
+            out = np.empty_like(field)
+            out[walk] = field
+            results.append(out)
+        return tuple(results)
 
 
-def _jet_curvatures(hood: Neighbourhoods, rows: np.ndarray, degree: int):
-    """k1, k2 (1/unit), d1, d2, fitted normal, neighbour count, quality and residual RMS at ``rows``."""
-    exponents = jet_exponents(degree)
-    coef, (t1, t2, n), residual, (x, y, _, w) = _jet_at(hood, rows, degree)
-    fx, fy = coef[:, 1], coef[:, 2]
-    k1, k2, v1 = jet_shape(coef)
-    normal = _unit(n - fx[:, None] * t1 - fy[:, None] * t2)
-    d1 = _unit(v1[:, :1] * (t1 + fx[:, None] * n) + v1[:, 1:] * (t2 + fy[:, None] * n))
-    d2 = np.cross(normal, d1)
-    quality, count = _neighbourhood_quality(x, y, w, len(exponents))
-    dof = np.maximum(count - len(exponents), 1)
-    rms = np.sqrt(residual / dof) * hood.radius
-    return k1 / hood.radius, k2 / hood.radius, d1, d2, normal, count, quality, rms
+@numba.njit(cache=True)
+def _column_of(P, i, a0, a1, low0, low1, side, nx, ny):
+    c0 = min(max(int(np.floor((P[i, a0] - low0) / side)), 0), nx - 1)
+    c1 = min(max(int(np.floor((P[i, a1] - low1) / side)), 0), ny - 1)
+    return c0, c1
 
 
-def _pilot_rows(hood: Neighbourhoods) -> np.ndarray:
-    used = np.flatnonzero(np.linalg.norm(hood.normals, axis=1) > 0)
+@numba.njit(cache=True)
+def _column_order(V, axes, low0, low1, side, nx, ny):
+    """Counting sort of the vertices by column, then by height within each column."""
+    a0, a1, a2 = axes[0], axes[1], axes[2]
+    column = np.empty(len(V), np.int64)
+    start = np.zeros(nx * ny + 1, np.int64)
+    for i in range(len(V)):
+        c0, c1 = _column_of(V, i, a0, a1, low0, low1, side, nx, ny)
+        column[i] = c0 * ny + c1
+        start[column[i] + 1] += 1
+    for c in range(nx * ny):
+        start[c + 1] += start[c]
+    fill = start[:-1].copy()
+    order = np.empty(len(V), np.int64)
+    for i in range(len(V)):
+        order[fill[column[i]]] = i
+        fill[column[i]] += 1
+    for c in range(nx * ny):
+        run = order[start[c]:start[c + 1]]
+        if len(run) > 1:
+            order[start[c]:start[c + 1]] = run[np.argsort(V[run, a2], kind="mergesort")]
+    return order, start
+
+
+@numba.njit(cache=True, inline="always")
+def _column_range(P, start, column, a2, lo, hi):
+    """Sorted positions [first, last) of a column's points whose height lies in [lo, hi]."""
+    a, b = start[column], start[column + 1]
+    while a < b:
+        mid = (a + b) >> 1
+        if P[mid, a2] < lo:
+            a = mid + 1
+        else:
+            b = mid
+    first = a
+    b = start[column + 1]
+    while a < b:
+        mid = (a + b) >> 1
+        if P[mid, a2] <= hi:
+            a = mid + 1
+        else:
+            b = mid
+    return first, a
+
+
+@numba.njit(cache=True)
+def _gather_ball(P, start, a0, a1, a2, nx, ny, low0, low1, side, reach, i, radius, found, gap):
+    """Sorted positions and squared distances of the points within ``radius`` of point i, written into
+    ``found`` and ``gap`` as far as they hold; returns how many there are."""
+    c0, c1 = _column_of(P, i, a0, a1, low0, low1, side, nx, ny)
+    zlo, zhi = P[i, a2] - radius, P[i, a2] + radius
+    r2 = radius * radius
+    inside = 0
+    for gx in range(max(c0 - reach, 0), min(c0 + reach + 1, nx)):
+        for gy in range(max(c1 - reach, 0), min(c1 + reach + 1, ny)):
+            first, last = _column_range(P, start, gx * ny + gy, a2, zlo, zhi)
+            for j in range(first, last):
+                d0, d1, d2 = P[j, 0] - P[i, 0], P[j, 1] - P[i, 1], P[j, 2] - P[i, 2]
+                dd = d0 * d0 + d1 * d1 + d2 * d2
+                if dd <= r2:
+                    if inside < len(found):
+                        found[inside], gap[inside] = j, dd
+                    inside += 1
+    return inside
+
+
+@numba.njit(cache=True, inline="always")
+def _add_monomials(T, value, x, y, top):
+    """T[a, b] += value x^a y^b for every a + b <= top."""
+    xa = value
+    for a in range(top + 1):
+        term = xa
+        for b in range(top + 1 - a):
+            T[a, b] += term
+            term *= y
+        xa *= x
+
+
+@numba.njit(cache=True, parallel=True, fastmath=False)
+def _jet_kernel(P, N, start, axes, ny, low0, low1, side, rows, radius, slots, degree):
+    """Per vertex of ``rows`` (sorted positions): neighbours within ``radius`` whose normal faces the
+    same side (at most the ``slots`` nearest), local frame, weighted normal equations of the jet
+    (Cazals and Pouget 2003) from the monomials of each point, Cholesky solve with a tiny relative
+    ridge, then graph_curvatures' closed form and the quality of the neighbourhood."""
+    n_rows = len(rows)
+    p = (degree + 1) * (degree + 2) // 2
+    top = 2 * degree
+    ex, ey = np.empty(p, np.int64), np.empty(p, np.int64)  # jet_exponents' order: 1, x, y, x^2, xy, y^2, ...
+    k = 0
+    for total in range(degree + 1):
+        for a in range(total, -1, -1):
+            ex[k], ey[k] = a, total - a
+            k += 1
+    a0, a1, a2 = axes[0], axes[1], axes[2]
+    nx = (len(start) - 1) // ny
+    reach = int(np.ceil(radius / side))
+    r2 = radius * radius
+    k1o, k2o = np.full(n_rows, np.nan), np.full(n_rows, np.nan)
+    d1o, d2o, no = np.full((n_rows, 3), np.nan), np.full((n_rows, 3), np.nan), np.full((n_rows, 3), np.nan)
+    counto, qualo, rmso = np.zeros(n_rows, np.int64), np.zeros(n_rows), np.zeros(n_rows)
+    block = 256
+    for chunk in numba.prange((n_rows + block - 1) // block):
+        M = np.empty((p, p))
+        rhs = np.empty(p)
+        coef = np.empty(p)
+        S = np.empty((top + 1, top + 1))
+        Z = np.empty((degree + 1, degree + 1))
+        found = np.empty(4 * slots + 64, np.int64)
+        gap = np.empty(4 * slots + 64)
+        for r in range(chunk * block, min((chunk + 1) * block, n_rows)):
+            i = rows[r]
+            n0, n1, n2 = N[i, 0], N[i, 1], N[i, 2]
+            if n0 == 0.0 and n1 == 0.0 and n2 == 0.0:
+                continue
+            # tangent frame as tangent_frames: t1 = unit(n x e_k), k the smallest normal component
+            e0 = e1 = e2 = 0.0
+            if abs(n0) <= abs(n1) and abs(n0) <= abs(n2):
+                e0 = 1.0
+            elif abs(n1) <= abs(n2):
+                e1 = 1.0
+            else:
+                e2 = 1.0
+            u0, u1, u2 = n1 * e2 - n2 * e1, n2 * e0 - n0 * e2, n0 * e1 - n1 * e0
+            un = np.sqrt(u0 * u0 + u1 * u1 + u2 * u2)
+            u0, u1, u2 = u0 / un, u1 / un, u2 / un
+            v0, v1, v2 = n1 * u2 - n2 * u1, n2 * u0 - n0 * u2, n0 * u1 - n1 * u0
+            inside = _gather_ball(P, start, a0, a1, a2, nx, ny, low0, low1, side, reach, i, radius, found, gap)
+            if inside > len(found):
+                found, gap = np.empty(2 * inside, np.int64), np.empty(2 * inside)
+                _gather_ball(P, start, a0, a1, a2, nx, ny, low0, low1, side, reach, i, radius, found, gap)
+            bound, at_bound = r2, slots  # take all points closer than bound, and at most at_bound at it
+            if inside > slots:
+                ranked = np.sort(gap[:inside])
+                bound = ranked[slots - 1]
+                at_bound = slots - np.searchsorted(ranked, bound)  # ties at the bound still allowed
+            # the normal equations of the facing points
+            S[:, :] = 0.0
+            Z[:, :] = 0.0
+            zz = 0.0
+            for slot in range(inside):
+                j, dd = found[slot], gap[slot]
+                if dd > bound:
+                    continue
+                if dd == bound and inside > slots:
+                    if at_bound == 0:
+                        continue
+                    at_bound -= 1
+                if N[j, 0] * n0 + N[j, 1] * n1 + N[j, 2] * n2 <= 0.0:
+                    continue
+                d0, d1 = (P[j, 0] - P[i, 0]) / radius, (P[j, 1] - P[i, 1]) / radius
+                d2 = (P[j, 2] - P[i, 2]) / radius
+                x = d0 * u0 + d1 * u1 + d2 * u2
+                y = d0 * v0 + d1 * v1 + d2 * v2
+                z = d0 * n0 + d1 * n1 + d2 * n2
+                _add_monomials(S, 1.0, x, y, top)  # power sums sum x^a y^b, a + b <= 2 degree
+                _add_monomials(Z, z, x, y, degree)  # and sum z x^a y^b, a + b <= degree
+                zz += z * z
+            count = int(S[0, 0])
+            for s in range(p):
+                rhs[s] = Z[ex[s], ey[s]]
+                for t in range(s, p):
+                    M[s, t] = S[ex[s] + ex[t], ey[s] + ey[t]]
+            # Cholesky factor in the lower triangle of M (upper holds the matrix), solve in place
+            trace = 0.0
+            for s in range(p):
+                trace += M[s, s]
+            ridge = 1e-10 * trace / p + 1e-300
+            for s in range(p):
+                acc = M[s, s] + ridge
+                for t in range(s):
+                    acc -= M[s, t] * M[s, t]
+                diag = np.sqrt(max(acc, ridge))
+                for q in range(s + 1, p):
+                    acc = M[s, q]
+                    for t in range(s):
+                        acc -= M[q, t] * M[s, t]
+                    M[q, s] = acc / diag
+                M[s, s] = diag  # the diagonal of L; the matrix's diagonal is no longer needed
+            for s in range(p):
+                acc = rhs[s]
+                for t in range(s):
+                    acc -= M[s, t] * coef[t]
+                coef[s] = acc / M[s, s]
+            for s in range(p - 1, -1, -1):
+                acc = coef[s]
+                for t in range(s + 1, p):
+                    acc -= M[t, s] * coef[t]
+                coef[s] = acc / M[s, s]
+            residual = zz
+            for s in range(p):
+                residual -= coef[s] * rhs[s]
+            # curvatures and directions of the fitted graph at the vertex (graph_curvatures)
+            fx, fy = coef[1], coef[2]
+            k1, k2, w0, w1 = _graph_shape(fx, fy, 2.0 * coef[3], coef[4], 2.0 * coef[5])
+            m0, m1, m2 = n0 - fx * u0 - fy * v0, n1 - fx * u1 - fy * v1, n2 - fx * u2 - fy * v2
+            mn = np.sqrt(m0 * m0 + m1 * m1 + m2 * m2)
+            m0, m1, m2 = m0 / mn, m1 / mn, m2 / mn
+            g0 = w0 * (u0 + fx * n0) + w1 * (v0 + fy * n0)
+            g1 = w0 * (u1 + fx * n1) + w1 * (v1 + fy * n1)
+            g2 = w0 * (u2 + fx * n2) + w1 * (v2 + fy * n2)
+            gn = np.sqrt(g0 * g0 + g1 * g1 + g2 * g2)
+            if gn > 0.0:
+                g0, g1, g2 = g0 / gn, g1 / gn, g2 / gn
+            k1o[r], k2o[r] = k1 / radius, k2 / radius
+            no[r, 0], no[r, 1], no[r, 2] = m0, m1, m2
+            d1o[r, 0], d1o[r, 1], d1o[r, 2] = g0, g1, g2
+            d2o[r, 0], d2o[r, 1], d2o[r, 2] = m1 * g2 - m2 * g1, m2 * g0 - m0 * g2, m0 * g1 - m1 * g0
+            # quality: balance of the neighbourhood times its size (_neighbourhood_quality's rule)
+            safe = max(count, 1)
+            spread = np.sqrt((S[2, 0] + S[0, 2]) / safe)
+            offset = np.sqrt(S[1, 0] ** 2 + S[0, 1] ** 2) / safe
+            balance = 1.0 - (offset / (HALF_DISC * max(spread, 1e-300))) ** 2
+            size = (count - p) / p
+            qualo[r] = min(max(balance, 0.0), 1.0) * min(max(size, 0.0), 1.0)
+            counto[r] = count
+            rmso[r] = np.sqrt(max(residual, 0.0) / max(count - p, 1)) * radius
+    return k1o, k2o, d1o, d2o, no, counto, qualo, rmso
+
+
+def _pilot_rows(normals: np.ndarray) -> np.ndarray:
+    used = np.flatnonzero(np.linalg.norm(normals, axis=1) > 0)
     return used[np.linspace(0, len(used) - 1, min(PILOT_SAMPLE, len(used))).astype(np.int64)]
 
 
-def _residual_level(hood: Neighbourhoods, rows: np.ndarray):
-    """Median residual RMS of quadric jets over ``hood`` at ``rows``, and the curvatures found there."""
-    k1, k2, *_, count, _, rms = _jet_curvatures(hood, rows, 2)
+def _residual_level(grid: ColumnGrid, rows: np.ndarray, radius: float):
+    """Median residual RMS of quadric jets within ``radius`` at ``rows``, and the curvatures found there."""
+    k1, k2, *_, count, _, rms = grid.jets(rows, radius, 2)
     fitted = count > len(jet_exponents(2)) + 3
     return (float(np.median(rms[fitted])) if fitted.any() else 0.0), k1, k2
 
 
-def _pilot(hood: Neighbourhoods, edge: float) -> tuple[float, float]:
+def _pilot(grid: ColumnGrid, normals: np.ndarray, edge: float) -> tuple[float, float]:
     """Noise level (part units) and curvature length of the part, from quadric jets on a sample.
 
     The residual of a quadric jet is noise plus misfit; the misfit grows as the cube of the radius
     (the jet's first neglected terms), the noise does not. Residuals at two radii r1 < r2 separate
     them: noise^2 = (s1^2 q^6 - s2^2) / (q^6 - 1) with q = r2 / r1.
     """
-    rows = _pilot_rows(hood)
-    small, _, _ = _residual_level(hood.at_radius(MIN_RADIUS * edge), rows)
-    large, k1, k2 = _residual_level(hood.at_radius(SCALE_RADIUS * edge), rows)
+    rows = _pilot_rows(normals)
+    small, _, _ = _residual_level(grid, rows, MIN_RADIUS * edge)
+    large, k1, k2 = _residual_level(grid, rows, SCALE_RADIUS * edge)
     q6 = (SCALE_RADIUS / MIN_RADIUS) ** 6
     noise = np.sqrt(max(small * small * q6 - large * large, 0.0) / (q6 - 1.0))
     bend = np.nanpercentile(np.maximum(np.abs(k1), np.abs(k2)), 90) if len(rows) else 0.0
     return float(noise), min(1.0 / max(bend, 1e-300), 1e3 * edge)
 
 
-def _default_radius(hood: Neighbourhoods, edge: float) -> float:
-    sigma, length = _pilot(hood, edge)
+def _default_radius(grid: ColumnGrid, normals: np.ndarray, edge: float) -> float:
+    sigma, length = _pilot(grid, normals, edge)
     balanced = RADIUS_GAIN * (sigma * edge) ** 0.2 * length**0.6
     return float(np.clip(balanced, MIN_RADIUS * edge, MAX_RADIUS * edge))
+
+
+def _grid_of(V: np.ndarray, F: np.ndarray, radius: float | None = None):
+    """Normals, mean edge length and the column grid of a mesh (columns of the radius, or of the
+    smallest default radius when none is given)."""
+    normals, edge, area, used = _mesh_measures(V, F)
+    side = MIN_RADIUS * edge if radius is None else radius
+    return normals, edge, ColumnGrid.of_vertices(V, normals, used / max(area, 1e-300), side)
 
 
 def noise_level(V: np.ndarray, F: np.ndarray) -> float:
@@ -412,7 +732,8 @@ def noise_level(V: np.ndarray, F: np.ndarray) -> float:
     on a clean mesh; the scanner's noise on a scan.
     """
     V, F = _as_mesh(V, F)
-    return _pilot(Neighbourhoods.of_mesh(V, F, vertex_normals(V, F)), mean_edge_length(V, F))[0]
+    normals, edge, grid = _grid_of(V, F)
+    return _pilot(grid, normals, edge)[0]
 
 
 def default_radius(V: np.ndarray, F: np.ndarray) -> float:
@@ -426,7 +747,8 @@ def default_radius(V: np.ndarray, F: np.ndarray) -> float:
     mesh gets MIN_RADIUS edge lengths.
     """
     V, F = _as_mesh(V, F)
-    return _default_radius(Neighbourhoods.of_mesh(V, F, vertex_normals(V, F)), mean_edge_length(V, F))
+    normals, edge, grid = _grid_of(V, F)
+    return _default_radius(grid, normals, edge)
 
 
 def principal_curvatures(
@@ -444,18 +766,12 @@ def principal_curvatures(
     V, F = _as_mesh(V, F)
     if not 2 <= degree <= 4:
         raise InputError(f"curvature needs a jet of degree 2 to 4, not {degree}")
-    normals = vertex_normals(V, F)
-    hood = Neighbourhoods.of_mesh(V, F, normals)
+    if radius is not None:
+        _check_radius(radius)
+    normals, edge, grid = _grid_of(V, F, radius)
     if radius is None:
-        radius = _default_radius(hood, mean_edge_length(V, F))
-    hood = hood.at_radius(radius)
-    parts = list(zip(*_in_parallel(lambda rows: _jet_curvatures(hood, rows, degree)[:7], len(V), hood.count)))
-    k1, k2, d1, d2, normal, count, quality = (np.concatenate(p) for p in parts)
-    unused = np.linalg.norm(normals, axis=1) == 0
-    for field in (k1, k2, d1, d2, normal):
-        field[unused] = np.nan
-    quality[unused] = 0.0
-    count[unused] = 0
+        radius = _default_radius(grid, normals, edge)
+    k1, k2, d1, d2, normal, count, quality, _ = grid.jets(np.arange(len(V)), radius, degree)
     return Curvature(k1, k2, d1, d2, normal, count, quality, float(radius))
 
 

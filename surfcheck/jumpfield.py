@@ -24,13 +24,12 @@ from surfcheck.differential import (
     Neighbourhoods,
     _as_mesh,
     _default_radius,
+    _grid_of,
     _in_parallel,
     _jet_at,
     fit_height,
     jet_exponents,
     jet_shape,
-    mean_edge_length,
-    vertex_normals,
 )
 from surfcheck.errors import InputError
 
@@ -94,11 +93,10 @@ def jump_fields(
     if directions < 1:
         raise InputError(f"the jump fields need at least one cut direction, not {directions}")
     exponents = half_fit_exponents(degree)
-    normals = vertex_normals(V, F)
+    normals, edge, grid = _grid_of(V, F)
     hood = Neighbourhoods.of_mesh(V, F, normals)
     if radius is None:
-        edge = mean_edge_length(V, F)
-        radius = min(JUMP_RADIUS * _default_radius(hood, edge), MAX_RADIUS * edge)
+        radius = min(JUMP_RADIUS * _default_radius(grid, normals, edge), MAX_RADIUS * edge)
     hood = hood.at_radius(radius)
 
     def chunk(rows: np.ndarray):

@@ -34,7 +34,7 @@ def verdict(grades: list[SeamGrade], required: int | None) -> str:
 
 def grade_document(part: Part, grades: list[SeamGrade], profile: ToleranceProfile, required: int | None,
                    parameters: dict | None = None) -> dict:
-    """The JSON-ready result of grading seams of a part (schema: docs/grade-result.md)."""
+    """The JSON-ready result of grading seams of a part (JSON Schema: docs/grade.schema.json)."""
     return {
         "tool": {"name": "surfcheck", "version": __version__},
         "part": {"source": part.source, "units": part.units, "vertices": part.n_vertices,

@@ -14,6 +14,7 @@ from pathlib import Path
 from urllib.parse import unquote, urlparse
 
 import html5lib
+import jsonschema
 import numpy as np
 import pytest
 from PIL import Image
@@ -25,6 +26,7 @@ from surfcheck.results import grade_document
 from surfcheck.seams import SeamIndex
 from surfcheck.tolerances import load_profile
 from tests.blend_parts import blend_part
+from tests.grade_schema import grade_document_schema
 
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if os.path.exists("/usr/bin/chromium") else None)
 STATIONS = 3
@@ -145,6 +147,7 @@ def test_report_command_writes_the_review_and_exits_like_grade(tmp_path):
     graded = run_cli("grade", *args, "--json", "--report", str(tmp_path / "graded"))
     assert graded.returncode in (0, 1), graded.stderr
     document = json.loads(graded.stdout)  # stdout stays one JSON document while the review is written
+    jsonschema.validate(document, grade_document_schema())  # as documented (docs/grade.schema.json)
     assert graded.returncode == (1 if document["verdict"] == "fail" else 0)  # 0 pass, 1 fails the requirement
     assert json.loads((tmp_path / "graded" / "result.json").read_text()) == document
     out = tmp_path / "review"

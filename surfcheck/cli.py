@@ -127,6 +127,8 @@ def print_grades(document: dict) -> None:
     console.print(table)
     console.print("values: governing station's value ± standard uncertainty / tolerance; the decision uses"
                   f" the expanded uncertainty (k = {document['tolerance']['coverage']:g})")
+    for item in document["advice"]:
+        console.print(f"{item['seam']}: {item['text']}")
     if document["require"]:
         colour = "green" if document["verdict"] == "pass" else "red"
         console.print(f"requirement {document['require']}: [{colour}]{document['verdict']}[/{colour}]")

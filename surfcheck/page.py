@@ -27,6 +27,7 @@ figcaption { font-size: 0.9em; color: #3c4043; margin-top: 4px; }
 nav ul { columns: 3; padding-left: 18px; } .caution { background: #fff7e0; border-left: 4px solid #e0a800;
   padding: 8px 12px; margin: 18px 0; } .small { font-size: 0.88em; color: #3c4043; }
 details summary { cursor: pointer; color: #0b57a4; }
+.advice { background: #eef4fb; border-left: 4px solid #0b57a4; padding: 6px 12px; }
 """
 
 
@@ -151,9 +152,11 @@ def _seam_section(seam: dict, document: dict, pictures: list[Picture]) -> str:
     facts = (f"<p>Groups A | B: <b>{escape(seam['groups'][0])}</b> | <b>{escape(seam['groups'][1])}</b>;"
              f" length {_num(seam['length'])} {u}; {seam['stations']} stations;"
              f" {'welded' if seam['welded'] else 'separate shells'}; achieved {_achieved(seam)}.</p>")
+    todo = "".join(f'<p class="advice"><b>What to do:</b> {escape(a["text"])}</p>'
+                   for a in document["advice"] if a["seam"] == seam["id"])
     figures = "".join(_figure(p) for p in pictures)
     return (f'<section id="{sid}" class="seam"><h2>{sid}: {escape(" | ".join(seam["groups"]))}</h2>{facts}'
-            f"{_order_table(seam, coverage)}{_station_table(seam, document['units'])}{figures}</section>")
+            f"{todo}{_order_table(seam, coverage)}{_station_table(seam, document['units'])}{figures}</section>")
 
 
 def _parameters_section(document: dict, context: dict) -> str:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from surfcheck import __version__
+from surfcheck.advice import advise
 from surfcheck.continuity import ORDERS, SeamGrade
 from surfcheck.errors import InputError
 from surfcheck.part import Part
@@ -45,5 +46,6 @@ def grade_document(part: Part, grades: list[SeamGrade], profile: ToleranceProfil
         "verdict": verdict(grades, required),
         "parameters": parameters or {},
         "seams": [g.to_dict() for g in grades],
+        "advice": [a.to_dict() for a in (advise(g, profile.coverage) for g in grades) if a is not None],
         "caution": CAUTION,
     }

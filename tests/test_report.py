@@ -4,6 +4,7 @@ headless Chromium loads it with every picture and renders it, result.json is the
 
 from __future__ import annotations
 
+import html
 import json
 import os
 import shutil
@@ -79,6 +80,9 @@ def test_page_states_verdict_seams_parameters_and_caution(review):
         assert f'id="{seam["id"]}"' in text
     assert f"Requirement G2: {document['verdict']}" in text
     assert document["caution"][:60] in text
+    assert document["advice"]  # the circular fillet is G1: both seams fail G2 (curvature 1/r on one side)
+    for item in document["advice"]:
+        assert html.escape(item["text"]) in text  # each seam short of G3 says what to do
     assert "surfcheck 0." in text and "numpy" in text  # tool and library versions
 
 

@@ -1,0 +1,58 @@
+"""What to do about a seam that falls short: one line per seam on the order that limits it.
+
+A failing order names the defect at the governing station and the blend order that removes it. An
+order that is "not resolved" is told apart by its cause: where the expanded uncertainty U = k u alone
+exceeds the tolerance, the data cannot decide that order at that tolerance whatever the value (the
+measurement is not fit for the tolerance: ISO 14253-1's guard bands leave no conformance zone);
+otherwise the value lies within U of the tolerance and the seam is borderline.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from surfcheck.continuity import ORDERS, UNITS, SeamGrade
+
+DEFECTS = (
+    "a gap: weld the faces or rebuild their shared edge",
+    "a kink: a fillet or `surfcheck blend --order 1` (or higher) removes it",
+    "a curvature jump (a circular fillet is G1 by nature): `surfcheck blend --order 2` or 3 removes it",
+    "a jump in the curvature's rate: `surfcheck blend --order 3` removes it",
+)
+
+
+@dataclass(frozen=True)
+class Advice:
+    """The seam, the order that limits it, its status, and what to do."""
+
+    seam: str
+    order: str
+    status: str
+    text: str
+
+    def to_dict(self) -> dict:
+        return {"seam": self.seam, "order": self.order, "status": self.status, "text": self.text}
+
+
+def advise(grade: SeamGrade, coverage: float) -> Advice | None:
+    """Advice on the order that limits ``grade`` (None when the seam achieves G3)."""
+    limit = grade.limited_by
+    if limit is None:
+        return None
+    name, status = limit
+    k = ORDERS.index(name)
+    summary = grade.orders[k]
+    unit = " " + UNITS[k].format(u=grade.units)
+    at = "at (" + ", ".join(f"{c:.4g}" for c in summary.worst_position) + ")"
+    expanded = coverage * summary.uncertainty
+    if status == "fail":
+        text = (f"{name} fails {at}: {summary.value:.3g}{unit} exceeds {summary.tolerance:.3g}{unit} by more"
+                f" than U = {expanded:.2g}{unit}; it is {DEFECTS[k]}")
+    elif not expanded < summary.tolerance:
+        text = (f"{name} cannot be decided {at}: U = {expanded:.2g}{unit} alone exceeds the tolerance"
+                f" {summary.tolerance:.3g}{unit}; it needs denser or less noisy data (or, for a scan,"
+                " `--tolerance scan`)")
+    else:
+        text = (f"{name} is borderline {at}: {summary.value:.3g}{unit} is within U = {expanded:.2g}{unit} of"
+                f" the tolerance {summary.tolerance:.3g}{unit}; denser data narrows U, else treat it as not shown")
+    return Advice(grade.id, name, status, text)

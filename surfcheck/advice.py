@@ -43,7 +43,7 @@ def advise(grade: SeamGrade, coverage: float) -> Advice | None:
     k = ORDERS.index(name)
     summary = grade.orders[k]
     unit = " " + UNITS[k].format(u=grade.units)
-    at = "at (" + ", ".join(f"{c:.4g}" for c in summary.worst_position) + ")"
+    at = "at (" + ", ".join(f"{round(float(c), 4) + 0.0:.6g}" for c in summary.worst_position) + ")"
     expanded = coverage * summary.uncertainty
     if status == "fail":
         text = (f"{name} fails {at}: {summary.value:.3g}{unit} exceeds {summary.tolerance:.3g}{unit} by more"

@@ -22,14 +22,7 @@ import numba
 import numpy as np
 
 from surfcheck.errors import InputError
-from surfcheck.jetkernel import (
-    add_monomials,
-    exponent_arrays,
-    graph_shape,
-    jet_exponents,
-    solve_normal_equations,
-    tangent_frame,
-)
+from surfcheck.jetkernel import exponent_arrays, fit_local_jet, graph_shape, jet_exponents, tangent_frame
 from surfcheck.neighbours import ColumnGrid, check_radius, local_neighbours, neighbour_work
 from surfcheck.part import edge_table
 
@@ -177,20 +170,19 @@ class Curvature:
 
 @numba.njit(cache=True, parallel=True, fastmath=False)
 def _jet_kernel(grid, rows, radius, slots, ex, ey):
-    """Per vertex of ``rows`` (sorted positions): local_neighbours, weighted normal equations of the jet
-    with the monomials x^ex y^ey (Cazals and Pouget 2003) from the monomials of each point, solved by
-    Cholesky, then graph_shape's closed form and the quality of the neighbourhood."""
+    """Per vertex of ``rows`` (sorted positions): local_neighbours, the jet with the monomials x^ex y^ey
+    (fit_local_jet; Cazals and Pouget 2003), then graph_shape's closed form and the quality of the
+    neighbourhood."""
     N = grid[1]
     n_rows, p = len(rows), len(ex)
     degree = int(np.max(ex + ey))
-    top = 2 * degree
     k1o, k2o = np.full(n_rows, np.nan), np.full(n_rows, np.nan)
     d1o, d2o, no = np.full((n_rows, 3), np.nan), np.full((n_rows, 3), np.nan), np.full((n_rows, 3), np.nan)
     counto, qualo, rmso = np.zeros(n_rows, np.int64), np.zeros(n_rows), np.zeros(n_rows)
     block = 256
     for chunk in numba.prange((n_rows + block - 1) // block):
         M, rhs, coef = np.empty((p, p)), np.empty(p), np.empty(p)
-        S, Z = np.empty((top + 1, top + 1)), np.empty((degree + 1, degree + 1))
+        S, Z = np.empty((2 * degree + 1, 2 * degree + 1)), np.empty((degree + 1, degree + 1))
         frame = np.empty((3, 3))
         found, gap, local = neighbour_work(slots)
         for r in range(chunk * block, min((chunk + 1) * block, n_rows)):
@@ -200,16 +192,7 @@ def _jet_kernel(grid, rows, radius, slots, ex, ey):
                 continue
             tangent_frame(n0, n1, n2, frame)
             count, found, gap, local = local_neighbours(grid, i, radius, slots, frame, found, gap, local)
-            S[:, :] = 0.0
-            Z[:, :] = 0.0
-            zz = 0.0
-            for k in range(count):
-                x, y, z = local[k, 0], local[k, 1], local[k, 2]
-                add_monomials(S, 1.0, x, y, top)  # power sums sum x^a y^b, a + b <= 2 degree
-                add_monomials(Z, z, x, y, degree)  # and sum z x^a y^b, a + b <= degree
-                zz += z * z
-            solve_normal_equations(S, Z, ex, ey, M, rhs, coef)
-            residual = zz
+            residual = fit_local_jet(local, count, ex, ey, S, Z, M, rhs, coef)
             for s in range(p):
                 residual -= coef[s] * rhs[s]
             # curvatures and directions of the fitted graph at the vertex

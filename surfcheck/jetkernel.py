@@ -4,7 +4,8 @@ The surface near a point is taken as a height z = f(x, y) over its tangent plane
 least squares, with the monomials x^a y^b of a chosen set (Cazals and Pouget 2003, "Estimating
 differential quantities using polynomial fitting of osculating jets"). The normal equations are
 assembled from the power sums sum w x^a y^b and sum w z x^a y^b (add_monomials, once per point) and
-solved by Cholesky in place (solve_normal_equations); graph_shape gives the curvatures of the fitted
+solved by Cholesky in place (solve_normal_equations), for a vertex's neighbours by fit_local_jet;
+graph_shape gives the curvatures of the fitted
 graph. The kernels of surfcheck.differential and surfcheck.jumpfield are built from these;
 fit_height runs them over rows of given points. Coordinates should be scaled to about unit size.
 
@@ -102,6 +103,25 @@ def solve_normal_equations(S, Z, ex, ey, M, rhs, coef):
         for t in range(s + 1, p):
             acc -= M[t, s] * coef[t]
         coef[s] = acc / M[s, s]
+
+
+@numba.njit(cache=True)
+def fit_local_jet(local, count, ex, ey, S, Z, M, rhs, coef):
+    """Least-squares jet with the monomials x^ex y^ey through the first ``count`` rows (x, y, z) of
+    ``local``, each of weight 1, into ``coef``. S and Z (at least 2 d + 1 and d + 1 square, d the
+    jet's degree) keep the power sums, ``rhs`` the right-hand side; M is work. Returns sum z^2, so
+    the residual sum of squares is that minus coef . rhs."""
+    degree = int(np.max(ex + ey))
+    S[:, :] = 0.0
+    Z[:, :] = 0.0
+    zz = 0.0
+    for k in range(count):
+        x, y, z = local[k, 0], local[k, 1], local[k, 2]
+        add_monomials(S, 1.0, x, y, 2 * degree)  # power sums sum x^a y^b, a + b <= 2 degree
+        add_monomials(Z, z, x, y, degree)  # and sum z x^a y^b, a + b <= degree
+        zz += z * z
+    solve_normal_equations(S, Z, ex, ey, M, rhs, coef)
+    return zz
 
 
 @numba.njit(cache=True)

@@ -25,6 +25,7 @@ from surfcheck.errors import InputError
 from surfcheck.jetkernel import (
     add_monomials,
     exponent_arrays,
+    fit_local_jet,
     graph_shape,
     jet_exponents,
     solve_normal_equations,
@@ -69,7 +70,7 @@ def _jump_kernel(grid, rows, radius, slots, directions, jet_ex, jet_ey, half_ex,
     the sides' normals (radians) and the unit direction across the cut of the largest jump."""
     N = grid[1]
     n_rows, p = len(rows), len(half_ex)
-    jet_degree, degree = int(np.max(jet_ex + jet_ey)), int(np.max(half_ex + half_ey))
+    degree = int(np.max(half_ex + half_ey))  # the jet's degree must be no higher
     top = 2 * degree
     jump_out, angle_out = np.full(n_rows, np.nan), np.full(n_rows, np.nan)
     across = np.full((n_rows, 3), np.nan)
@@ -86,12 +87,7 @@ def _jump_kernel(grid, rows, radius, slots, directions, jet_ex, jet_ey, half_ex,
                 continue
             tangent_frame(N[i, 0], N[i, 1], N[i, 2], frame)
             count, found, gap, local = local_neighbours(grid, i, radius, slots, frame, found, gap, local)
-            S[:, :, :] = 0.0
-            Z[:, :, :] = 0.0
-            for k in range(count):
-                add_monomials(S[0], 1.0, local[k, 0], local[k, 1], 2 * jet_degree)
-                add_monomials(Z[0], local[k, 2], local[k, 0], local[k, 1], jet_degree)
-            solve_normal_equations(S[0], Z[0], jet_ex, jet_ey, M, rhs, coef)
+            fit_local_jet(local, count, jet_ex, jet_ey, S[0], Z[0], M, rhs, coef)
             _, _, w0, w1 = graph_shape(coef[1], coef[2], 2.0 * coef[3], coef[4], 2.0 * coef[5])
             start = np.arctan2(w1, w0)
             best_jump, best_angle, best_theta = np.nan, np.nan, start

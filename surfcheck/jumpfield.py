@@ -31,7 +31,7 @@ from surfcheck.jetkernel import (
     solve_normal_equations,
     tangent_frame,
 )
-from surfcheck.neighbours import local_neighbours, neighbour_work
+from surfcheck.neighbours import check_radius, local_neighbours, neighbour_work
 
 JUMP_RADIUS = 1.5  # jump fits use this many times the curvature radius: each half holds half the points
 ON_CUT = 1e-9  # points this close to the cut line (in radius units) belong to both halves
@@ -154,7 +154,9 @@ def jump_fields(
     if directions < 1:
         raise InputError(f"the jump fields need at least one cut direction, not {directions}")
     exponents = half_fit_exponents(degree)
-    normals, edge, grid = jet_grid(V, F)
+    if radius is not None:
+        check_radius(radius)
+    normals, edge, grid = jet_grid(V, F, radius)
     if radius is None:
         radius = min(JUMP_RADIUS * fitted_radius(grid, normals, edge), MAX_RADIUS * edge)
     slots = grid.slot_count(radius)

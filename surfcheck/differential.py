@@ -33,6 +33,7 @@ SCALE_RADIUS = 4.0  # pilot radius for the curvature scale, in mean edge lengths
 RADIUS_GAIN = 2.2  # constant of the error-balancing radius, fitted on noisy tori (docs/curvature.md)
 HALF_DISC = 0.5  # centroid offset / RMS radius of the neighbours of a vertex on a straight open edge
 
+
 def _as_mesh(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     V = np.ascontiguousarray(V, dtype=np.float64)
     F = np.ascontiguousarray(F, dtype=np.int64)

@@ -4,13 +4,10 @@ The surface near a point is taken as a height z = f(x, y) over its tangent plane
 least squares, with the monomials x^a y^b of a chosen set (Cazals and Pouget 2003, "Estimating
 differential quantities using polynomial fitting of osculating jets"). The normal equations are
 assembled from the power sums sum w x^a y^b and sum w z x^a y^b (add_monomials, once per point) and
-solved by Cholesky in place (solve_normal_equations), for a vertex's neighbours by fit_local_jet;
-graph_shape gives the curvatures of the fitted
-graph. The kernels of surfcheck.differential and surfcheck.jumpfield are built from these;
-fit_height runs them over rows of given points. Coordinates should be scaled to about unit size.
-
-numba's cache keys a kernel on its own file only: after editing this module, clear the __pycache__
-folders' .nbi/.nbc files so that kernels of other modules are compiled anew.
+solved by Cholesky in place (solve_normal_equations); fit_local_jet does both for a vertex's
+neighbours and graph_shape gives the curvatures of the fitted graph. The kernels of
+surfcheck.differential and surfcheck.jumpfield are built from these; fit_height runs them over rows
+of given points. Coordinates should be scaled to about unit size.
 """
 
 from __future__ import annotations

@@ -3,10 +3,11 @@ principal_curvatures on the same part in the same run.
 
 Run from the repository root:  PYTHONPATH=. python benchmarks/jumpfield.py [--vertices 1000000]
 [--repeat 2]. The part is a circular fillet (plane, quarter circle of radius 1, plane) extruded. Both
-functions are called once on a small part first, so numba's compile or cache load is timed apart. The
-script prints the best of --repeat runs of jump_fields and of principal_curvatures, their ratio (the
-jump fields fit 2 * directions + 1 polynomials per vertex against one, over 1.5 times the radius), the
-neighbourhood radius, the field's peak (true jump: 1/r = 1) and the peak resident memory.
+functions are called once on a small part first, so numba's compile or cache load is timed apart; then
+each of --repeat rounds runs jump_fields and principal_curvatures once. The script prints the best
+run of each, their ratio (the jump fields fit 2 * directions + 1 polynomials per vertex against one,
+over 1.5 times the radius), the neighbourhood radius, the field's peak (true jump: 1/r = 1) and the
+peak resident memory.
 """
 
 from __future__ import annotations
@@ -33,13 +34,10 @@ def fillet(vertices: int):
     return V, F
 
 
-def best_of(repeat: int, run):
-    times, result = [], None
-    for _ in range(repeat):
-        t = time.perf_counter()
-        result = run()
-        times.append(time.perf_counter() - t)
-    return min(times), times, result
+def timed(run):
+    t = time.perf_counter()
+    result = run()
+    return time.perf_counter() - t, result
 
 
 def main() -> None:
@@ -54,12 +52,20 @@ def main() -> None:
     print(f"first calls on a small part (compile or cache load): {time.perf_counter() - t:.2f} s")
     V, F = fillet(args.vertices)
     print(f"extruded circular fillet: {len(V)} vertices, {len(F)} triangles")
-    jump, jump_runs, jf = best_of(args.repeat, lambda: jump_fields(V, F))
-    curve, curve_runs, c = best_of(args.repeat, lambda: principal_curvatures(V, F))
+    jump_runs, curve_runs = [], []
+    for _ in range(args.repeat):  # alternated, so that both see the same swings of the machine's load
+        seconds, jf = timed(lambda: jump_fields(V, F))
+        jump_runs.append(seconds)
+        seconds, c = timed(lambda: principal_curvatures(V, F))
+        curve_runs.append(seconds)
+    jump, curve = min(jump_runs), min(curve_runs)
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    for name, best, runs in (("jump_fields", jump, jump_runs), ("principal_curvatures", curve, curve_runs)):
-        print(f"{name}: best {best:.2f} s of {args.repeat} (all: {', '.join(f'{t:.2f}' for t in runs)})")
-    print(f"ratio jump_fields / principal_curvatures: {jump / curve:.1f}")
+    for name, runs in (("jump_fields", jump_runs), ("principal_curvatures", curve_runs)):
+        all_runs = ", ".join(f"{t:.2f}" for t in runs)
+        print(f"{name}: best {min(runs):.2f} s of {args.repeat} (all: {all_runs})")
+    pairs = ", ".join(f"{j / k:.1f}" for j, k in zip(jump_runs, curve_runs))
+    print(f"ratio jump_fields / principal_curvatures: {jump / curve:.1f} of the best runs "
+          f"(run by run: {pairs})")
     print(f"  jump radius {jf.radius:.4f} ({jf.radius / c.radius:.2f} x the curvature radius {c.radius:.4f})")
     tangent = np.nanpercentile(jf.tangent, 99)
     print(f"  curvature-jump peak {np.nanmax(jf.curvature):.3f} (true 1.0); tangent-jump 99th percentile "

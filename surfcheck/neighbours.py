@@ -24,15 +24,6 @@ def check_radius(radius: float) -> None:
         raise InputError(f"the neighbourhood radius must be a positive length, not {radius}")
 
 
-def slot_count(radius: float, density: float, n: int, scale: float = 1.0) -> int:
-    """Most neighbours a fit takes: ``scale`` times 1.6 times the points of a full disc of ``radius`` (at
-    ``density`` vertices per unit area), plus one, 12 to 512 and at most n: where the mesh is much
-    denser than average a vertex takes its nearest points within the radius."""
-    check_radius(radius)
-    expected = np.pi * radius * radius * density
-    return min(int(np.clip(np.ceil(scale * 1.6 * expected) + 1, 12, 512)), n)
-
-
 @dataclass(frozen=True)
 class ColumnGrid:
     """Vertices sorted into columns (see the module docstring), with their normals.
@@ -68,7 +59,12 @@ class ColumnGrid:
                    axes, (int(shape[0]), int(shape[1])), (float(low[0]), float(low[1])), side, float(density))
 
     def slot_count(self, radius: float) -> int:
-        return slot_count(radius, self.density, len(self.order))
+        """Most neighbours a fit within ``radius`` takes: 1.6 times the points of a full disc (at the
+        grid's density) plus one, 12 to 512 and at most all: where the mesh is much denser than
+        average a vertex takes its nearest points within the radius."""
+        check_radius(radius)
+        expected = np.pi * radius * radius * self.density
+        return min(int(np.clip(np.ceil(1.6 * expected) + 1, 12, 512)), len(self.order))
 
     @property
     def arrays(self) -> tuple:

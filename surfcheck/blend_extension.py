@@ -24,7 +24,8 @@ from scipy.interpolate import CubicSpline
 from scipy.sparse.csgraph import dijkstra
 from scipy.spatial import cKDTree
 
-from surfcheck.differential import fit_height, jet_exponents, vertex_normals
+from surfcheck.differential import vertex_normals
+from surfcheck.jetkernel import fit_height, jet_exponents
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
@@ -111,7 +112,7 @@ def boundary_extension(part: Part, chain: Curve, order: int, radius: float | Non
 def _fit(offsets, weights, frame, exponents, window) -> np.ndarray:
     """Height polynomials in the frame (x along T, y along D, heights along N), scaled by the window."""
     x, y, z = (np.einsum("skc,sc->sk", offsets, axis) / window[:, None] for axis in frame)
-    return fit_height(x, y, z, weights, exponents)[0]
+    return fit_height(x, y, z, weights, exponents)
 
 
 def _side_faces(part: Part, chain: Curve) -> np.ndarray:

@@ -17,21 +17,21 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 
-from surfcheck.differential import (
-    MAX_RADIUS,
-    Neighbourhoods,
-    _as_mesh,
-    _default_radius,
-    _grid_of,
-    _in_parallel,
-    _jet_at,
-    fit_height,
-    jet_exponents,
-    jet_shape,
-)
+from surfcheck.differential import MAX_RADIUS, fitted_radius, jet_grid
 from surfcheck.errors import InputError
+from surfcheck.jetkernel import (
+    add_monomials,
+    exponent_arrays,
+    fit_local_jet,
+    graph_shape,
+    jet_exponents,
+    solve_normal_equations,
+    tangent_frame,
+)
+from surfcheck.neighbours import check_radius, local_neighbours, neighbour_work
 
 JUMP_RADIUS = 1.5  # jump fits use this many times the curvature radius: each half holds half the points
 ON_CUT = 1e-9  # points this close to the cut line (in radius units) belong to both halves
@@ -60,23 +60,84 @@ def half_fit_exponents(degree: int) -> list[tuple[int, int]]:
     return jet_exponents(2) + [(a, 0) for a in range(3, degree + 1)]
 
 
-def _cut_fits(s, t, z, w, exponents):
-    """Fit both sides of the cut s = 0; return normal curvatures across the cut (c, 2), unit normals
-    (c, 2, 3) and whether the pair of sides is fit to compare (c,): see BALANCE, MAX_ALONG_OFFSET."""
-    sides = np.stack([w * (s >= -ON_CUT), w * (s <= ON_CUT)])  # (2, c, k)
-    coef, _ = fit_height(s, t, z, sides, exponents)
-    fs, ft, fss = coef[..., 1], coef[..., 2], 2.0 * coef[..., 3]  # exponents start 1, s, t, s^2
-    W = np.sqrt(1.0 + fs * fs + ft * ft)
-    normal = np.stack([-fs, -ft, np.ones_like(fs)], axis=-1) / W[..., None]
-    count = np.stack([side.sum(axis=1) for side in sides], axis=1)
-    safe = np.maximum(count, 1.0)
-    spread = np.stack([np.einsum("ck,ck->c", np.abs(s), side) for side in sides], axis=1) / safe
-    t_sum = np.stack([np.einsum("ck,ck->c", t, side) for side in sides], axis=1)
-    t_square = np.stack([np.einsum("ck,ck->c", t * t, side) for side in sides], axis=1)
-    along = np.abs(t_sum) / np.sqrt(t_square * safe + 1e-300)
-    balanced = spread.min(axis=1) >= BALANCE * spread.max(axis=1)
-    usable = (count.min(axis=1) >= 2 * len(exponents)) & balanced & (along.max(axis=1) <= MAX_ALONG_OFFSET)
-    return -fss / (W * (1.0 + fs * fs)), normal, usable  # II(e, e) / I(e, e), e = d/ds, outward sign
+@numba.njit(cache=True, parallel=True, fastmath=False)
+def _jump_kernel(grid, rows, radius, slots, directions, jet_ex, jet_ey, half_ex, half_ey):
+    """Per vertex of ``rows`` (sorted positions): local_neighbours; a jet with the monomials
+    x^jet_ex y^jet_ey, whose direction of maximum curvature is the first cut line; per cut line the
+    two half fits with the monomials s^half_ex t^half_ey (s across the cut; weight 1 on the side, points
+    within ON_CUT on both), kept where usable (BALANCE, MAX_ALONG_OFFSET, 2 p points a side). Returns
+    the largest normal-curvature jump over the kept cuts (radius units), the largest angle between
+    the sides' normals (radians) and the unit direction across the cut of the largest jump."""
+    N = grid[1]
+    n_rows, p = len(rows), len(half_ex)
+    degree = int(np.max(half_ex + half_ey))  # the jet's degree must be no higher
+    top = 2 * degree
+    jump_out, angle_out = np.full(n_rows, np.nan), np.full(n_rows, np.nan)
+    across = np.full((n_rows, 3), np.nan)
+    block = 256
+    for chunk in numba.prange((n_rows + block - 1) // block):
+        M, rhs, coef = np.empty((p, p)), np.empty(p), np.empty(p)
+        S, Z = np.empty((2, top + 1, top + 1)), np.empty((2, degree + 1, degree + 1))
+        spread, bend, normal = np.empty(2), np.empty(2), np.empty((2, 3))
+        frame = np.empty((3, 3))
+        found, gap, local = neighbour_work(slots)
+        for r in range(chunk * block, min((chunk + 1) * block, n_rows)):
+            i = rows[r]
+            if N[i, 0] == 0.0 and N[i, 1] == 0.0 and N[i, 2] == 0.0:
+                continue
+            tangent_frame(N[i, 0], N[i, 1], N[i, 2], frame)
+            count, found, gap, local = local_neighbours(grid, i, radius, slots, frame, found, gap, local)
+            fit_local_jet(local, count, jet_ex, jet_ey, S[0], Z[0], M, rhs, coef)
+            _, _, w0, w1 = graph_shape(coef[1], coef[2], 2.0 * coef[3], coef[4], 2.0 * coef[5])
+            start = np.arctan2(w1, w0)
+            best_jump, best_angle, best_theta = np.nan, np.nan, start
+            for cut in range(directions):
+                theta = start + cut * np.pi / directions
+                c, sn = np.cos(theta), np.sin(theta)
+                S[:, :, :] = 0.0
+                Z[:, :, :] = 0.0
+                spread[:] = 0.0
+                for k in range(count):
+                    x, y, z = local[k, 0], local[k, 1], local[k, 2]
+                    s, t = c * x + sn * y, c * y - sn * x
+                    if s >= -ON_CUT:
+                        add_monomials(S[0], 1.0, s, t, top)
+                        add_monomials(Z[0], z, s, t, degree)
+                        spread[0] += abs(s)
+                    if s <= ON_CUT:
+                        add_monomials(S[1], 1.0, s, t, top)
+                        add_monomials(Z[1], z, s, t, degree)
+                        spread[1] += abs(s)
+                usable = True
+                for side in range(2):
+                    points = S[side, 0, 0]
+                    safe = max(points, 1.0)
+                    spread[side] /= safe
+                    along = abs(S[side, 0, 1]) / np.sqrt(S[side, 0, 2] * safe + 1e-300)
+                    usable = usable and points >= 2 * p and along <= MAX_ALONG_OFFSET
+                if not usable or min(spread[0], spread[1]) < BALANCE * max(spread[0], spread[1]):
+                    continue
+                for side in range(2):
+                    solve_normal_equations(S[side], Z[side], half_ex, half_ey, M, rhs, coef)
+                    fs, ft, fss = coef[1], coef[2], 2.0 * coef[3]  # exponents start 1, s, t, s^2
+                    W = np.sqrt(1.0 + fs * fs + ft * ft)
+                    bend[side] = -fss / (W * (1.0 + fs * fs))  # II(e, e) / I(e, e), e = d/ds, outward
+                    normal[side, 0], normal[side, 1], normal[side, 2] = -fs / W, -ft / W, 1.0 / W
+                jump = abs(bend[0] - bend[1])
+                dot = normal[0, 0] * normal[1, 0] + normal[0, 1] * normal[1, 1] + normal[0, 2] * normal[1, 2]
+                c0 = normal[0, 1] * normal[1, 2] - normal[0, 2] * normal[1, 1]
+                c1 = normal[0, 2] * normal[1, 0] - normal[0, 0] * normal[1, 2]
+                c2 = normal[0, 0] * normal[1, 1] - normal[0, 1] * normal[1, 0]
+                angle = np.arctan2(np.sqrt(c0 * c0 + c1 * c1 + c2 * c2), dot)
+                if jump > (-1.0 if np.isnan(best_jump) else best_jump):
+                    best_jump, best_theta = jump, theta
+                if np.isnan(best_angle) or angle > best_angle:
+                    best_angle = angle
+            jump_out[r], angle_out[r] = best_jump, best_angle
+            c, sn = np.cos(best_theta), np.sin(best_theta)
+            for axis in range(3):
+                across[r, axis] = c * frame[0, axis] + sn * frame[1, axis]
+    return jump_out, angle_out, across
 
 
 def jump_fields(
@@ -85,48 +146,24 @@ def jump_fields(
     """Curvature-jump and tangent-jump fields at every vertex (see the module docstring).
 
     ``radius`` is the neighbourhood radius in part units (None: JUMP_RADIUS times the default jet
-    radius of surfcheck.differential.default_radius, at most MAX_RADIUS mean edge lengths); ``directions`` the number of cut lines, evenly
-    spaced over 180 degrees from the direction of maximum curvature; ``degree`` the half fits' degree
-    across the cut.
+    radius of surfcheck.differential.default_radius, at most MAX_RADIUS mean edge lengths);
+    ``directions`` the number of cut lines, evenly spaced over 180 degrees from the direction of
+    maximum curvature; ``degree`` the half fits' degree across the cut. One compiled pass over the
+    vertices (_jump_kernel) on the column grid of the jet fits.
     """
-    V, F = _as_mesh(V, F)
     if directions < 1:
         raise InputError(f"the jump fields need at least one cut direction, not {directions}")
     exponents = half_fit_exponents(degree)
-    normals, edge, grid = _grid_of(V, F)
-    hood = Neighbourhoods.of_mesh(V, F, normals)
+    if radius is not None:
+        check_radius(radius)
+    normals, edge, grid = jet_grid(V, F, radius)
     if radius is None:
-        radius = min(JUMP_RADIUS * _default_radius(grid, normals, edge), MAX_RADIUS * edge)
-    hood = hood.at_radius(radius)
-
-    def chunk(rows: np.ndarray):
-        coef, (t1, t2, n), _, (x, y, z, w) = _jet_at(hood, rows, 2)
-        *_, v1 = jet_shape(coef)
-        start = np.arctan2(v1[:, 1], v1[:, 0])
-        best_curvature = np.full(len(rows), np.nan)
-        best_angle = np.full(len(rows), np.nan)
-        best_theta = start.copy()
-        for j in range(directions):
-            theta = start + j * np.pi / directions
-            c, sn = np.cos(theta)[:, None], np.sin(theta)[:, None]
-            s, t = c * x + sn * y, c * y - sn * x
-            bend, normal, both = _cut_fits(s, t, z, w, exponents)
-            jump = np.where(both, np.abs(bend[:, 0] - bend[:, 1]), np.nan)
-            dot = np.sum(normal[:, 0] * normal[:, 1], axis=1)
-            sine = np.linalg.norm(np.cross(normal[:, 0], normal[:, 1]), axis=1)
-            angle = np.where(both, np.arctan2(sine, dot), np.nan)
-            larger = jump > np.nan_to_num(best_curvature, nan=-1.0)
-            best_curvature = np.where(larger, jump, best_curvature)
-            best_theta = np.where(larger, theta, best_theta)
-            best_angle = np.fmax(best_angle, angle)
-        across = np.cos(best_theta)[:, None] * t1 + np.sin(best_theta)[:, None] * t2
-        return best_curvature / hood.radius, np.degrees(best_angle), across
-
-    parts = list(zip(*_in_parallel(chunk, len(V), hood.count)))
-    curvature, tangent, across = (np.concatenate(p) for p in parts)
-    unused = np.linalg.norm(normals, axis=1) == 0
-    curvature[unused], tangent[unused], across[unused] = np.nan, np.nan, np.nan
-    return JumpFields(curvature, tangent, across, float(radius))
+        radius = min(JUMP_RADIUS * fitted_radius(grid, normals, edge), MAX_RADIUS * edge)
+    slots = grid.slot_count(radius)
+    jump, angle, across = grid.run(_jump_kernel, np.arange(len(normals)), float(radius), slots,
+                                   int(directions), *exponent_arrays(jet_exponents(2)),
+                                   *exponent_arrays(exponents))
+    return JumpFields(jump / radius, np.degrees(angle), across, float(radius))
 
 
 def curvature_jump_field(

@@ -24,6 +24,22 @@ def check_mesh_arrays(V: np.ndarray, F: np.ndarray, where: str) -> None:
         raise InputError(f"{where}: a triangle refers to a vertex that does not exist")
 
 
+def half_edges(F: np.ndarray) -> np.ndarray:
+    """(3m, 2) directed edges (F[:,0]->F[:,1], F[:,1]->F[:,2], F[:,2]->F[:,0]), face-major order."""
+    return np.stack([F, np.roll(F, -1, axis=1)], axis=2).reshape(-1, 2)
+
+
+def edge_table(F: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The edges of the triangles F over n vertices: (e, 2) unique undirected edges as (low, high)
+    vertex index, (3m,) the edge of each of the half_edges, and (e,) how many faces use each edge (1 on
+    a boundary, 2 inside, more where non-manifold)."""
+    ordered = np.sort(half_edges(F), axis=1)
+    unique_keys, inverse = np.unique(ordered[:, 0] * n + ordered[:, 1], return_inverse=True)
+    edges = np.stack(np.divmod(unique_keys, n), axis=1)
+    inverse = inverse.reshape(-1)
+    return edges, inverse, np.bincount(inverse, minlength=len(edges))
+
+
 @dataclass(frozen=True, eq=False)
 class Part:
     """A triangle mesh: vertices (n,3) float64, faces (m,3) int64, face_group (m,) int64.
@@ -79,16 +95,11 @@ class Part:
     @cached_property
     def half_edges(self) -> np.ndarray:
         """(3m, 2) directed edges (F[:,0]->F[:,1], F[:,1]->F[:,2], F[:,2]->F[:,0]), face-major order."""
-        F = self.faces
-        return np.stack([F, np.roll(F, -1, axis=1)], axis=2).reshape(-1, 2)
+        return half_edges(self.faces)
 
     @cached_property
-    def _edge_table(self) -> tuple[np.ndarray, np.ndarray]:
-        ordered = np.sort(self.half_edges, axis=1)
-        key = ordered[:, 0] * self.n_vertices + ordered[:, 1]
-        unique_keys, inverse = np.unique(key, return_inverse=True)
-        edges = np.stack(np.divmod(unique_keys, self.n_vertices), axis=1)
-        return edges, inverse.reshape(-1)
+    def _edge_table(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        return edge_table(self.faces, self.n_vertices)
 
     @property
     def edges(self) -> np.ndarray:
@@ -108,10 +119,10 @@ class Part:
         data = np.ones(3 * m, dtype=np.int8)
         return sp.csr_matrix((data, (self.half_edge_edge, faces_of_half)), shape=(len(self.edges), m))
 
-    @cached_property
+    @property
     def edge_face_count(self) -> np.ndarray:
         """(e,) how many faces use each edge: 1 on a boundary, 2 inside, more where non-manifold."""
-        return np.bincount(self.half_edge_edge, minlength=len(self.edges))
+        return self._edge_table[2]
 
     @cached_property
     def vertex_faces(self) -> sp.csr_matrix:

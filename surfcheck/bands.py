@@ -50,6 +50,7 @@ def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None
     bend = np.arccos(np.clip(np.abs(np.einsum("ij,ij->i", side_normal[fa], side_normal[fb])), 0, 1))
     k = np.maximum(np.abs(mesh.shape.k1), np.abs(mesh.shape.k2))[mesh.F].mean(axis=1)
     pieces = np.zeros(len(models), dtype=bool)
+    ramps = np.zeros(len(models), dtype=bool)
     for j, model in enumerate(models):
         if model is not None and model.kind == "plane":
             continue
@@ -63,7 +64,28 @@ def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None
         faces = label == j
         curved = np.median(k[faces]) * np.sqrt(mesh.areas[faces].sum()) > 1.0
         pieces[j] = across < BAND_ACROSS and smooth and curved
-    return pieces
+        ramps[j] = across < BAND_ACROSS and smooth and not curved
+    return _with_ramps(pieces, ramps, label[fa], label[fb])
+
+
+def _with_ramps(pieces: np.ndarray, ramps: np.ndarray, la: np.ndarray, lb: np.ndarray) -> np.ndarray:
+    """Add to the band pieces every ramp joined to one through a chain of ramps.
+
+    A ramp is a curved region that bends across its borders and meets its neighbours tangentially
+    like a band piece but bends too little on its own (median |k| sqrt(area) under 1): the curvature
+    ramp of a G2 or G3 blend (a clothoid or smooth-step spiral, whose curvature grows from zero), fitted
+    by a cylinder of a larger radius than the blend's arc. Next to a band it is part of that band; on
+    its own (a gently curved face) it stays a face.
+    """
+    pieces = pieces.copy()
+    while True:
+        joined = np.zeros_like(pieces)
+        joined[la[pieces[lb]]] = True
+        joined[lb[pieces[la]]] = True
+        grown = ramps & joined & ~pieces
+        if not grown.any():
+            return pieces
+        pieces |= grown
 
 
 def _jet_steepest(mesh: ScanMesh) -> np.ndarray:

@@ -22,6 +22,8 @@ BORDER_STEPS = 4  # face-ring averaging steps of the cost when a band's borders 
 BORDER_MADS = 6.0  # a face keeps its border faces while their averaged cost stays within 6 MADs
 STRAIGHTEN_WINDOW = 7  # stations in the running median of a border's thresholds (7 x 2 scales long)
 STRAIGHTEN_REACH = 3.0  # scales either side of a band border that are relabelled when it is straightened
+DEPARTURE_REACH = 6.0  # scales either side of a border whose points fix where a blend leaves its face
+DEPARTURE_LENGTH = 7.0  # scales along the border either side of a station, for the same fit
 
 def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None]) -> np.ndarray:
     """(n_labels,) True for the curved regions that are pieces of blend bands.
@@ -168,7 +170,7 @@ def refine_band_borders(mesh: ScanMesh, groups_faces: list) -> list:
             best_cost[takes], best_side[takes] = cost[takes], n
         label[movable] = best_side[movable]
         for n in sides:
-            label = _straightened_border(mesh, label, b, n)
+            label = _straightened_border(mesh, label, b, n, groups_faces[n][2] if band_model is None else None)
     label = _absorbed_fragments(mesh, label)
     out = []
     for j, (kind, _, model) in enumerate(groups_faces):
@@ -178,14 +180,16 @@ def refine_band_borders(mesh: ScanMesh, groups_faces: list) -> list:
     return out
 
 
-def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int) -> np.ndarray:
+def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int,
+                         side_model: Primitive | None = None) -> np.ndarray:
     """Straighten the border between ``band`` and ``side`` station by station.
 
     Stations every two scales along the border each get a reference point (the mean of their border
     vertices) and a direction across the border in the surface; faces of either group within
-    STRAIGHTEN_REACH scales get an across coordinate s from their station. At each station the
-    threshold on s that disagrees with the fewest current labels is taken (a one-dimensional
-    classification), the thresholds get a running median of STRAIGHTEN_WINDOW stations along the border
+    STRAIGHTEN_REACH scales get an across coordinate s from their station. At each station a threshold
+    on s is taken: the one that disagrees with the fewest current labels (a one-dimensional
+    classification), or, given the face's ``side_model``, where the band departs from it
+    (_departure). The thresholds get a running median of STRAIGHTEN_WINDOW stations along the border
     and are moved onto the nearest vertex's coordinate (so that on a structured triangulation the
     border follows a row of edges instead of zigzagging through it), and the faces are relabelled by
     them: the border keeps its place but loses the staircase that noise leaves in per-face decisions.
@@ -200,6 +204,7 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
         return label
     P = mesh.V[border]
     cand = np.flatnonzero(in_band | in_side)
+    zone = np.unique(mesh.F[cand])
     dist, j = cKDTree(P).query(mesh.centroids[cand], distance_upper_bound=STRAIGHTEN_REACH * mesh.scale)
     near = np.isfinite(dist)
     cand, j = cand[near], j[near]
@@ -216,6 +221,7 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
     vote = np.bincount(station_of, weights=np.where(in_band[cand], s, -s), minlength=len(stations))
     flip = np.where(vote < 0, -1.0, 1.0)  # so that s > 0 on the band's side at every station
     s *= flip[station_of]
+    across *= flip[:, None]
     threshold = np.zeros(len(stations))
     for k in range(len(stations)):
         mine = station_of == k
@@ -226,16 +232,103 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
         i = int(np.argmin(wrong))
         threshold[k] = 0.0 if not len(ss) else (ss[i - 1] + ss[i]) / 2 if 0 < i < len(ss) else ss[min(i, len(ss) - 1)]
     half = STRAIGHTEN_WINDOW // 2
-    padded = np.concatenate([np.repeat(threshold[:1], half), threshold, np.repeat(threshold[-1:], half)])
-    threshold = np.median(np.lib.stride_tricks.sliding_window_view(padded, 2 * half + 1), axis=1)
-    for k in range(len(stations)):  # onto the nearest vertex, so the border runs along mesh edges there
+    window = np.lib.stride_tricks.sliding_window_view(np.pad(np.arange(len(stations)), half, mode="edge"), 2 * half + 1)
+    out = label.copy()
+    if side_model is None:
+        threshold = _on_vertices(mesh, cand, station_of, centre, across, np.median(threshold[window], axis=1))
+        out[cand] = np.where(s < threshold[station_of], side, band)
+        return out
+    # where the band leaves the face at each station, and each station's threshold as the median of
+    # its neighbours' crossings measured in its own frame; faces are cut by the nearest crossing
+    crossing = centre + threshold[:, None] * across
+    half_width = 0.5 * mesh.areas[in_band].sum() / (2.0 * mesh.scale * len(stations))
+    for k in range(len(stations)):
+        found = _departure_at(mesh, zone, side_model, centre[k], tangent[k], across[k], half_width)
+        if found is not None:
+            crossing[k], across[k] = found
+    threshold = np.median(np.einsum("kwi,ki->kw", crossing[window] - centre[:, None], across), axis=1)
+    crossing = centre + _on_vertices(mesh, cand, station_of, centre, across, threshold)[:, None] * across
+    nearest = cKDTree(crossing).query(mesh.centroids[cand])[1]
+    beyond = np.einsum("ij,ij->i", mesh.centroids[cand] - crossing[nearest], across[nearest])
+    out[cand] = np.where(beyond < 0, side, band)
+    return out
+
+
+def _on_vertices(mesh: ScanMesh, cand: np.ndarray, station_of: np.ndarray, centre: np.ndarray,
+                 across: np.ndarray, threshold: np.ndarray) -> np.ndarray:
+    """Each station's threshold moved onto the nearest vertex's across coordinate, so that the border
+    runs along mesh edges there."""
+    threshold = threshold.copy()
+    for k in range(len(threshold)):
         corners = np.unique(mesh.F[cand[station_of == k]])
         if len(corners):
-            at = flip[k] * ((mesh.V[corners] - centre[k]) @ across[k])
+            at = (mesh.V[corners] - centre[k]) @ across[k]
             threshold[k] = at[np.argmin(np.abs(at - threshold[k]))]
-    out = label.copy()
-    out[cand] = np.where(s < threshold[station_of], side, band)
-    return out
+    return threshold
+
+
+def _departure_at(mesh: ScanMesh, vertices: np.ndarray, model: Primitive, centre: np.ndarray,
+                  tangent: np.ndarray, across: np.ndarray,
+                  band_reach: float) -> tuple[np.ndarray, np.ndarray] | None:
+    """Where the band leaves the face ``model`` at one station: _departure on the ``vertices`` within
+    DEPARTURE_REACH scales of ``centre`` on the face's side of the border and ``band_reach`` (half the
+    band's width: the part of the band nearer this face) on the band's, and within DEPARTURE_LENGTH
+    scales along it, with the across direction turned to the band's steepest rise (the old border may
+    run askew). Returns the crossing point and that direction."""
+    q = mesh.V[vertices] - centre
+    s, t = q @ across, q @ tangent
+    reach = min(band_reach, DEPARTURE_REACH * mesh.scale)
+    inside = (s > -DEPARTURE_REACH * mesh.scale) & (s < reach) & (np.abs(t) < DEPARTURE_LENGTH * mesh.scale)
+    s, t, height = s[inside], t[inside], model.signed_distance(mesh.V[vertices[inside]])
+    rising = s > 0
+    if rising.sum() < 10:
+        return None
+    height = height * np.sign(np.sum(height[rising]))
+    # the border as the blend's contour lines run: turn s to the direction of steepest rise
+    slope = np.linalg.lstsq(np.column_stack([np.ones(rising.sum()), s[rising], t[rising]]), height[rising], rcond=None)[0]
+    turn = np.arctan2(slope[2], slope[1])
+    knot = _departure(np.cos(turn) * s + np.sin(turn) * t, height, mesh.scale)
+    rise = np.cos(turn) * across + np.sin(turn) * tangent
+    return None if knot is None else (centre + knot * rise, rise)
+
+
+def _departure(s: np.ndarray, height: np.ndarray, scale: float) -> float | None:
+    """Where a smooth blend leaves a face, from points at across coordinate ``s`` (band side s > 0)
+    and height ``height`` above the face's primitive (positive on the band's side).
+
+    A blend that leaves a face with G2 contact (a clothoid: curvature linear in arc length) rises from
+    it as c3 w^3 + ..., one with G3 contact (a smooth-step curvature ramp) as c4 w^4 + ..., with
+    w = max(s - s0, 0): truncated-power splines with one knot at s0 (de Boor, A Practical Guide to
+    Splines). Its first tenths of a millimetre lie within the noise of the face, but the rise beyond
+    them fixes s0. Each knot on a grid of scale / 20 is scored by the better of the two rises
+    (_rise_rss) and the knot with the least squares is taken. None when the points do not reach
+    across the border.
+    """
+    if len(s) < 20 or s.min() > -scale or s.max() < scale:
+        return None
+    knots = np.arange(s.min() + scale, s.max() - scale, scale / 20.0)
+    if not len(knots):
+        return None
+    rss = np.array([_rise_rss(np.maximum(s - knot, 0.0) / scale, height) for knot in knots])
+    return float(knots[np.argmin(rss)])
+
+
+def _rise_rss(w: np.ndarray, height: np.ndarray) -> float:
+    """Residual sum of squares of the better of the two rises over the face's level c0: height ~
+    c0 + w^3 (c3 + c4 w + c5 w^2) (G2 start) and c0 + w^4 (c4 + c5 w + c6 w^2) (G3 start), each with
+    its leading coefficient held non-negative (a blend does not first bend back towards the face it
+    leaves; without this a G3 start is taken for a G2 start an edge or two earlier). The coefficients
+    are linear least squares; when the leading one comes out negative the constrained optimum has it
+    at zero."""
+    best = np.inf
+    for first in (3, 4):
+        X = np.column_stack([np.ones_like(w), w ** first, w ** (first + 1), w ** (first + 2)])
+        coef = np.linalg.lstsq(X, height, rcond=None)[0]
+        if coef[1] < 0:  # the optimum with the leading coefficient held non-negative lies on 0
+            X = X[:, [0, 2, 3]]
+            coef = np.linalg.lstsq(X, height, rcond=None)[0]
+        best = min(best, float(np.sum((height - X @ coef) ** 2)))
+    return best
 
 
 def _absorbed_fragments(mesh: ScanMesh, label: np.ndarray, rounds: int = 3) -> np.ndarray:

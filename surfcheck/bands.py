@@ -23,6 +23,7 @@ BORDER_MADS = 6.0  # a face keeps its border faces while their averaged cost sta
 STRAIGHTEN_WINDOW = 7  # stations in the running median of a border's thresholds (7 x 2 scales long)
 STRAIGHTEN_REACH = 3.0  # scales either side of a band border that are relabelled when it is straightened
 DEPARTURE_REACH = 6.0  # scales either side of a border whose points fix where a blend leaves its face
+KNOT_F = 3.84  # chi-squared(1) 0.95 quantile: knots whose residuals the data cannot tell apart
 DEPARTURE_LENGTH = 7.0  # scales along the border either side of a station, for the same fit
 
 def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None]) -> np.ndarray:
@@ -247,7 +248,11 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
         if found is not None:
             crossing[k], across[k] = found
     threshold = np.median(np.einsum("kwi,ki->kw", crossing[window] - centre[:, None], across), axis=1)
-    crossing = centre + _on_vertices(mesh, cand, station_of, centre, across, threshold)[:, None] * across
+    crossing = centre + threshold[:, None] * across
+    near = np.asarray(cKDTree(mesh.V).query_ball_point(crossing, mesh.scale), dtype=object)
+    for k in range(len(stations)):  # onto the nearest vertex, so the border runs along mesh edges there
+        at = (mesh.V[np.asarray(near[k], dtype=np.int64)] - crossing[k]) @ across[k]
+        crossing[k] += at[np.argmin(np.abs(at))] * across[k] if len(at) else 0.0
     nearest = cKDTree(crossing).query(mesh.centroids[cand])[1]
     beyond = np.einsum("ij,ij->i", mesh.centroids[cand] - crossing[nearest], across[nearest])
     out[cand] = np.where(beyond < 0, side, band)
@@ -310,7 +315,15 @@ def _departure(s: np.ndarray, height: np.ndarray, scale: float) -> float | None:
     if not len(knots):
         return None
     rss = np.array([_rise_rss(np.maximum(s - knot, 0.0) / scale, height) for knot in knots])
-    return float(knots[np.argmin(rss)])
+    best = int(np.argmin(rss))
+    # the knots the data cannot tell from the best (F test, one parameter at 95 %), in one run
+    inside = rss <= rss[best] * (1.0 + KNOT_F / max(len(s) - 5, 1))
+    first, last = best, best
+    while first > 0 and inside[first - 1]:
+        first -= 1
+    while last < len(knots) - 1 and inside[last + 1]:
+        last += 1
+    return float(0.5 * (knots[first] + knots[last]))
 
 
 def _rise_rss(w: np.ndarray, height: np.ndarray) -> float:

@@ -187,13 +187,15 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
 
     Stations every two scales along the border each get a reference point (the mean of their border
     vertices) and a direction across the border in the surface; faces of either group within
-    STRAIGHTEN_REACH scales get an across coordinate s from their station. At each station a threshold
-    on s is taken: the one that disagrees with the fewest current labels (a one-dimensional
-    classification), or, given the face's ``side_model``, where the band departs from it
-    (_departure). The thresholds get a running median of STRAIGHTEN_WINDOW stations along the border
+    STRAIGHTEN_REACH scales get an across coordinate s from their station. At each station the
+    threshold on s that disagrees with the fewest current labels is taken (a one-dimensional
+    classification), the thresholds get a running median of STRAIGHTEN_WINDOW stations along the border
     and are moved onto the nearest vertex's coordinate (so that on a structured triangulation the
     border follows a row of edges instead of zigzagging through it), and the faces are relabelled by
     them: the border keeps its place but loses the staircase that noise leaves in per-face decisions.
+    Given the face's ``side_model`` (a freeform band: a G2 or G3 blend, whose current border sits
+    inside the blend where its rise leaves the noise), the border is moved instead to where the band
+    departs from the face (_departure_crossings) and faces are cut by the nearest station's crossing.
     """
     in_band, in_side = label == band, label == side
     on_band = np.zeros(len(mesh.V), dtype=bool)
@@ -239,24 +241,37 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
         threshold = _on_vertices(mesh, cand, station_of, centre, across, np.median(threshold[window], axis=1))
         out[cand] = np.where(s < threshold[station_of], side, band)
         return out
-    # where the band leaves the face at each station, and each station's threshold as the median of
-    # its neighbours' crossings measured in its own frame; faces are cut by the nearest crossing
-    crossing = centre + threshold[:, None] * across
+    frames = (centre + threshold[:, None] * across, tangent, across)
     half_width = 0.5 * mesh.areas[in_band].sum() / (2.0 * mesh.scale * len(stations))
-    for k in range(len(stations)):
-        found = _departure_at(mesh, zone, side_model, centre[k], tangent[k], across[k], half_width)
-        if found is not None:
-            crossing[k], across[k] = found
-    threshold = np.median(np.einsum("kwi,ki->kw", crossing[window] - centre[:, None], across), axis=1)
-    crossing = centre + threshold[:, None] * across
-    near = np.asarray(cKDTree(mesh.V).query_ball_point(crossing, mesh.scale), dtype=object)
-    for k in range(len(stations)):  # onto the nearest vertex, so the border runs along mesh edges there
-        at = (mesh.V[np.asarray(near[k], dtype=np.int64)] - crossing[k]) @ across[k]
-        crossing[k] += at[np.argmin(np.abs(at))] * across[k] if len(at) else 0.0
+    crossing, across = _departure_crossings(mesh, zone, side_model, centre, frames, window, half_width)
     nearest = cKDTree(crossing).query(mesh.centroids[cand])[1]
     beyond = np.einsum("ij,ij->i", mesh.centroids[cand] - crossing[nearest], across[nearest])
     out[cand] = np.where(beyond < 0, side, band)
     return out
+
+
+def _departure_crossings(mesh: ScanMesh, zone: np.ndarray, model: Primitive, centre: np.ndarray, frames,
+                         window: np.ndarray, half_width: float) -> tuple[np.ndarray, np.ndarray]:
+    """Where the band leaves the face ``model`` at each station, and the direction across there.
+
+    ``frames``: each station's current crossing, tangent and across direction (kept where the fit
+    finds no departure). Each station's crossing is then the median of its ``window`` of neighbours'
+    crossings measured along its own across direction (a stray one does not move it), moved onto
+    the nearest vertex within a scale (so that on a structured triangulation the border follows a
+    row of edges).
+    """
+    crossing, tangent, across = (a.copy() for a in frames)
+    for k in range(len(crossing)):
+        found = _departure_at(mesh, zone, model, centre[k], tangent[k], across[k], half_width)
+        if found is not None:
+            crossing[k], across[k] = found
+    offset = np.median(np.einsum("kwi,ki->kw", crossing[window] - centre[:, None], across), axis=1)
+    crossing = centre + offset[:, None] * across
+    near = cKDTree(mesh.V).query_ball_point(crossing, mesh.scale)
+    for k in range(len(crossing)):
+        at = (mesh.V[np.asarray(near[k], dtype=np.int64)] - crossing[k]) @ across[k]
+        crossing[k] += at[np.argmin(np.abs(at))] * across[k] if len(at) else 0.0
+    return crossing, across
 
 
 def _on_vertices(mesh: ScanMesh, cand: np.ndarray, station_of: np.ndarray, centre: np.ndarray,
@@ -306,8 +321,11 @@ def _departure(s: np.ndarray, height: np.ndarray, scale: float) -> float | None:
     w = max(s - s0, 0): truncated-power splines with one knot at s0 (de Boor, A Practical Guide to
     Splines). Its first tenths of a millimetre lie within the noise of the face, but the rise beyond
     them fixes s0. Each knot on a grid of scale / 20 is scored by the better of the two rises
-    (_rise_rss) and the knot with the least squares is taken. None when the points do not reach
-    across the border.
+    (_rise_rss); the knots whose residuals the data cannot tell from the least (the knot is the join
+    point of a segmented regression, Hudson 1966; the interval is the usual F-test one for a single
+    parameter at 95 %) form an interval, and its middle is taken: a G3 start rises so slowly that
+    the interval reaches well into the blend, so its least-squares knot lies late. None when the
+    points do not reach across the border.
     """
     if len(s) < 20 or s.min() > -scale or s.max() < scale:
         return None

@@ -22,6 +22,9 @@ BORDER_STEPS = 4  # face-ring averaging steps of the cost when a band's borders 
 BORDER_MADS = 6.0  # a face keeps its border faces while their averaged cost stays within 6 MADs
 STRAIGHTEN_WINDOW = 7  # stations in the running median of a border's thresholds (7 x 2 scales long)
 STRAIGHTEN_REACH = 3.0  # scales either side of a band border that are relabelled when it is straightened
+DEPARTURE_REACH = 6.0  # scales either side of a border whose points fix where a blend leaves its face
+KNOT_F = 3.84  # chi-squared(1) 0.95 quantile: knots whose residuals the data cannot tell apart
+DEPARTURE_LENGTH = 7.0  # scales along the border either side of a station, for the same fit
 
 def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None]) -> np.ndarray:
     """(n_labels,) True for the curved regions that are pieces of blend bands.
@@ -50,6 +53,7 @@ def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None
     bend = np.arccos(np.clip(np.abs(np.einsum("ij,ij->i", side_normal[fa], side_normal[fb])), 0, 1))
     k = np.maximum(np.abs(mesh.shape.k1), np.abs(mesh.shape.k2))[mesh.F].mean(axis=1)
     pieces = np.zeros(len(models), dtype=bool)
+    ramps = np.zeros(len(models), dtype=bool)
     for j, model in enumerate(models):
         if model is not None and model.kind == "plane":
             continue
@@ -63,7 +67,28 @@ def band_pieces(mesh: ScanMesh, label: np.ndarray, models: list[Primitive | None
         faces = label == j
         curved = np.median(k[faces]) * np.sqrt(mesh.areas[faces].sum()) > 1.0
         pieces[j] = across < BAND_ACROSS and smooth and curved
-    return pieces
+        ramps[j] = across < BAND_ACROSS and smooth and not curved
+    return _with_ramps(pieces, ramps, label[fa], label[fb])
+
+
+def _with_ramps(pieces: np.ndarray, ramps: np.ndarray, la: np.ndarray, lb: np.ndarray) -> np.ndarray:
+    """Add to the band pieces every ramp joined to one through a chain of ramps.
+
+    A ramp is a curved region that bends across its borders and meets its neighbours tangentially
+    like a band piece but bends too little on its own (median |k| sqrt(area) under 1): the curvature
+    ramp of a G2 or G3 blend (a clothoid or smooth-step spiral, whose curvature grows from zero), fitted
+    by a cylinder of a larger radius than the blend's arc. Next to a band it is part of that band; on
+    its own (a gently curved face) it stays a face.
+    """
+    pieces = pieces.copy()
+    while True:
+        joined = np.zeros_like(pieces)
+        joined[la[pieces[lb]]] = True
+        joined[lb[pieces[la]]] = True
+        grown = ramps & joined & ~pieces
+        if not grown.any():
+            return pieces
+        pieces |= grown
 
 
 def _jet_steepest(mesh: ScanMesh) -> np.ndarray:
@@ -146,7 +171,7 @@ def refine_band_borders(mesh: ScanMesh, groups_faces: list) -> list:
             best_cost[takes], best_side[takes] = cost[takes], n
         label[movable] = best_side[movable]
         for n in sides:
-            label = _straightened_border(mesh, label, b, n)
+            label = _straightened_border(mesh, label, b, n, groups_faces[n][2] if band_model is None else None)
     label = _absorbed_fragments(mesh, label)
     out = []
     for j, (kind, _, model) in enumerate(groups_faces):
@@ -156,7 +181,8 @@ def refine_band_borders(mesh: ScanMesh, groups_faces: list) -> list:
     return out
 
 
-def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int) -> np.ndarray:
+def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int,
+                         side_model: Primitive | None = None) -> np.ndarray:
     """Straighten the border between ``band`` and ``side`` station by station.
 
     Stations every two scales along the border each get a reference point (the mean of their border
@@ -167,6 +193,9 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
     and are moved onto the nearest vertex's coordinate (so that on a structured triangulation the
     border follows a row of edges instead of zigzagging through it), and the faces are relabelled by
     them: the border keeps its place but loses the staircase that noise leaves in per-face decisions.
+    Given the face's ``side_model`` (a freeform band: a G2 or G3 blend, whose current border sits
+    inside the blend where its rise leaves the noise), the border is moved instead to where the band
+    departs from the face (_departure_crossings) and faces are cut by the nearest station's crossing.
     """
     in_band, in_side = label == band, label == side
     on_band = np.zeros(len(mesh.V), dtype=bool)
@@ -178,6 +207,7 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
         return label
     P = mesh.V[border]
     cand = np.flatnonzero(in_band | in_side)
+    zone = np.unique(mesh.F[cand])
     dist, j = cKDTree(P).query(mesh.centroids[cand], distance_upper_bound=STRAIGHTEN_REACH * mesh.scale)
     near = np.isfinite(dist)
     cand, j = cand[near], j[near]
@@ -194,6 +224,7 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
     vote = np.bincount(station_of, weights=np.where(in_band[cand], s, -s), minlength=len(stations))
     flip = np.where(vote < 0, -1.0, 1.0)  # so that s > 0 on the band's side at every station
     s *= flip[station_of]
+    across *= flip[:, None]
     threshold = np.zeros(len(stations))
     for k in range(len(stations)):
         mine = station_of == k
@@ -204,16 +235,131 @@ def _straightened_border(mesh: ScanMesh, label: np.ndarray, band: int, side: int
         i = int(np.argmin(wrong))
         threshold[k] = 0.0 if not len(ss) else (ss[i - 1] + ss[i]) / 2 if 0 < i < len(ss) else ss[min(i, len(ss) - 1)]
     half = STRAIGHTEN_WINDOW // 2
-    padded = np.concatenate([np.repeat(threshold[:1], half), threshold, np.repeat(threshold[-1:], half)])
-    threshold = np.median(np.lib.stride_tricks.sliding_window_view(padded, 2 * half + 1), axis=1)
-    for k in range(len(stations)):  # onto the nearest vertex, so the border runs along mesh edges there
+    window = np.lib.stride_tricks.sliding_window_view(np.pad(np.arange(len(stations)), half, mode="edge"), 2 * half + 1)
+    out = label.copy()
+    if side_model is None:
+        threshold = _on_vertices(mesh, cand, station_of, centre, across, np.median(threshold[window], axis=1))
+        out[cand] = np.where(s < threshold[station_of], side, band)
+        return out
+    frames = (centre + threshold[:, None] * across, tangent, across)
+    half_width = 0.5 * mesh.areas[in_band].sum() / (2.0 * mesh.scale * len(stations))
+    crossing, across = _departure_crossings(mesh, zone, side_model, centre, frames, window, half_width)
+    nearest = cKDTree(crossing).query(mesh.centroids[cand])[1]
+    beyond = np.einsum("ij,ij->i", mesh.centroids[cand] - crossing[nearest], across[nearest])
+    out[cand] = np.where(beyond < 0, side, band)
+    return out
+
+
+def _departure_crossings(mesh: ScanMesh, zone: np.ndarray, model: Primitive, centre: np.ndarray, frames,
+                         window: np.ndarray, half_width: float) -> tuple[np.ndarray, np.ndarray]:
+    """Where the band leaves the face ``model`` at each station, and the direction across there.
+
+    ``frames``: each station's current crossing, tangent and across direction (kept where the fit
+    finds no departure). Each station's crossing is then the median of its ``window`` of neighbours'
+    crossings measured along its own across direction (a stray one does not move it), moved onto
+    the nearest vertex within a scale (so that on a structured triangulation the border follows a
+    row of edges).
+    """
+    crossing, tangent, across = (a.copy() for a in frames)
+    for k in range(len(crossing)):
+        found = _departure_at(mesh, zone, model, centre[k], tangent[k], across[k], half_width)
+        if found is not None:
+            crossing[k], across[k] = found
+    offset = np.median(np.einsum("kwi,ki->kw", crossing[window] - centre[:, None], across), axis=1)
+    crossing = centre + offset[:, None] * across
+    near = cKDTree(mesh.V).query_ball_point(crossing, mesh.scale)
+    for k in range(len(crossing)):
+        at = (mesh.V[np.asarray(near[k], dtype=np.int64)] - crossing[k]) @ across[k]
+        crossing[k] += at[np.argmin(np.abs(at))] * across[k] if len(at) else 0.0
+    return crossing, across
+
+
+def _on_vertices(mesh: ScanMesh, cand: np.ndarray, station_of: np.ndarray, centre: np.ndarray,
+                 across: np.ndarray, threshold: np.ndarray) -> np.ndarray:
+    """Each station's threshold moved onto the nearest vertex's across coordinate, so that the border
+    runs along mesh edges there."""
+    threshold = threshold.copy()
+    for k in range(len(threshold)):
         corners = np.unique(mesh.F[cand[station_of == k]])
         if len(corners):
-            at = flip[k] * ((mesh.V[corners] - centre[k]) @ across[k])
+            at = (mesh.V[corners] - centre[k]) @ across[k]
             threshold[k] = at[np.argmin(np.abs(at - threshold[k]))]
-    out = label.copy()
-    out[cand] = np.where(s < threshold[station_of], side, band)
-    return out
+    return threshold
+
+
+def _departure_at(mesh: ScanMesh, vertices: np.ndarray, model: Primitive, centre: np.ndarray,
+                  tangent: np.ndarray, across: np.ndarray,
+                  band_reach: float) -> tuple[np.ndarray, np.ndarray] | None:
+    """Where the band leaves the face ``model`` at one station: _departure on the ``vertices`` within
+    DEPARTURE_REACH scales of ``centre`` on the face's side of the border and ``band_reach`` (half the
+    band's width: the part of the band nearer this face) on the band's, and within DEPARTURE_LENGTH
+    scales along it, with the across direction turned to the band's steepest rise (the old border may
+    run askew). Returns the crossing point and that direction."""
+    q = mesh.V[vertices] - centre
+    s, t = q @ across, q @ tangent
+    reach = min(band_reach, DEPARTURE_REACH * mesh.scale)
+    inside = (s > -DEPARTURE_REACH * mesh.scale) & (s < reach) & (np.abs(t) < DEPARTURE_LENGTH * mesh.scale)
+    s, t, height = s[inside], t[inside], model.signed_distance(mesh.V[vertices[inside]])
+    rising = s > 0
+    if rising.sum() < 10:
+        return None
+    height = height * np.sign(np.sum(height[rising]))
+    # the border as the blend's contour lines run: turn s to the direction of steepest rise
+    slope = np.linalg.lstsq(np.column_stack([np.ones(rising.sum()), s[rising], t[rising]]), height[rising], rcond=None)[0]
+    turn = np.arctan2(slope[2], slope[1])
+    knot = _departure(np.cos(turn) * s + np.sin(turn) * t, height, mesh.scale)
+    rise = np.cos(turn) * across + np.sin(turn) * tangent
+    return None if knot is None else (centre + knot * rise, rise)
+
+
+def _departure(s: np.ndarray, height: np.ndarray, scale: float) -> float | None:
+    """Where a smooth blend leaves a face, from points at across coordinate ``s`` (band side s > 0)
+    and height ``height`` above the face's primitive (positive on the band's side).
+
+    A blend that leaves a face with G2 contact (a clothoid: curvature linear in arc length) rises from
+    it as c3 w^3 + ..., one with G3 contact (a smooth-step curvature ramp) as c4 w^4 + ..., with
+    w = max(s - s0, 0): truncated-power splines with one knot at s0 (de Boor, A Practical Guide to
+    Splines). Its first tenths of a millimetre lie within the noise of the face, but the rise beyond
+    them fixes s0. Each knot on a grid of scale / 20 is scored by the better of the two rises
+    (_rise_rss); the knots whose residuals the data cannot tell from the least (the knot is the join
+    point of a segmented regression, Hudson 1966; the interval is the usual F-test one for a single
+    parameter at 95 %) form an interval, and its middle is taken: a G3 start rises so slowly that
+    the interval reaches well into the blend, so its least-squares knot lies late. None when the
+    points do not reach across the border.
+    """
+    if len(s) < 20 or s.min() > -scale or s.max() < scale:
+        return None
+    knots = np.arange(s.min() + scale, s.max() - scale, scale / 20.0)
+    if not len(knots):
+        return None
+    rss = np.array([_rise_rss(np.maximum(s - knot, 0.0) / scale, height) for knot in knots])
+    best = int(np.argmin(rss))
+    # the knots the data cannot tell from the best (F test, one parameter at 95 %), in one run
+    inside = rss <= rss[best] * (1.0 + KNOT_F / max(len(s) - 5, 1))
+    first, last = best, best
+    while first > 0 and inside[first - 1]:
+        first -= 1
+    while last < len(knots) - 1 and inside[last + 1]:
+        last += 1
+    return float(0.5 * (knots[first] + knots[last]))
+
+
+def _rise_rss(w: np.ndarray, height: np.ndarray) -> float:
+    """Residual sum of squares of the better of the two rises over the face's level c0: height ~
+    c0 + w^3 (c3 + c4 w + c5 w^2) (G2 start) and c0 + w^4 (c4 + c5 w + c6 w^2) (G3 start), each with
+    its leading coefficient held non-negative (a blend does not first bend back towards the face it
+    leaves; without this a G3 start is taken for a G2 start an edge or two earlier). The coefficients
+    are linear least squares; when the leading one comes out negative the constrained optimum has it
+    at zero."""
+    best = np.inf
+    for first in (3, 4):
+        X = np.column_stack([np.ones_like(w), w ** first, w ** (first + 1), w ** (first + 2)])
+        coef = np.linalg.lstsq(X, height, rcond=None)[0]
+        if coef[1] < 0:  # the optimum with the leading coefficient held non-negative lies on 0
+            X = X[:, [0, 2, 3]]
+            coef = np.linalg.lstsq(X, height, rcond=None)[0]
+        best = min(best, float(np.sum((height - X @ coef) ** 2)))
+    return best
 
 
 def _absorbed_fragments(mesh: ScanMesh, label: np.ndarray, rounds: int = 3) -> np.ndarray:

@@ -285,6 +285,8 @@ def segment(
         radius_text = ""
         if fillet.get("mean") is not None:
             radius_text = f"{fillet['mean']:.4g} ({fillet['min']:.4g} .. {fillet['max']:.4g})"
+            if fillet.get("across_min") is not None:
+                radius_text += f"; across {fillet['across_min']:.4g} .. {fillet['across_max']:.4g}"
             if fillet.get("max_deviation") is not None:
                 radius_text += f", deviation from nominal up to {fillet['max_deviation']:.3g}"
         table.add_row(group["name"], group["kind"], _fmt(group["area"]),

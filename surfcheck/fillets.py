@@ -10,7 +10,7 @@ section residual says how far from circular the section is.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.spatial import cKDTree
@@ -20,17 +20,22 @@ from surfcheck.primitives import fit_circle_2d
 
 TRIM = 0.1  # fraction of the section's arc dropped at each end before the final circle fit
 MIN_SECTION_POINTS = 10
+ACROSS_PIECES = 3  # equal turns of a section fitted by a circle each: middle and two ends of a blend
 
 
 @dataclass(frozen=True, eq=False)
 class FilletRadius:
     """Per-station radius of a band: stations (s,3) seam points in order, radius (s,), rms (s,) circle
-    residual, and the nominal radius it is compared with (None when not given)."""
+    residual, across (s,2) the smallest and largest radius of the ACROSS_PIECES circles fitted to
+    equal turns of each section (equal on a circular fillet; on a G2 or G3 blend the arc's radius and
+    the larger radii of its curvature ramps), and the nominal radius it is compared with (None when
+    not given)."""
 
     stations: np.ndarray
     radius: np.ndarray
     rms: np.ndarray
     nominal: float | None
+    across: np.ndarray = field(default_factory=lambda: np.empty((0, 2)))
 
     @property
     def mean(self) -> float:
@@ -62,6 +67,8 @@ class FilletRadius:
             "spread": _round(self.spread),
             "section_rms": _round(self.section_rms),
             "per_station": [_round(float(x)) for x in r],
+            "across_min": _round(float(np.median(self.across[:, 0]))) if len(self.across) else None,
+            "across_max": _round(float(np.median(self.across[:, 1]))) if len(self.across) else None,
         }
         if self.nominal is not None:
             out["nominal"] = self.nominal
@@ -113,7 +120,7 @@ def measure_fillet(
     width = part.face_areas[band_faces].sum() / max(_polyline_length(S), scale)
     spacing = max(2.0 * scale, 0.5 * width)
     tree = cKDTree(V[band_vertices])
-    stations, radii, rms = [], [], []
+    stations, radii, rms, across = [], [], [], []
     for i in stations_along(S, spacing):
         near = S[np.linalg.norm(S - S[i], axis=1) < spacing]
         if len(near) < 2:
@@ -132,7 +139,20 @@ def measure_fillet(
         stations.append(S[i])
         radii.append(radius)
         rms.append(residual)
-    return FilletRadius(np.asarray(stations).reshape(-1, 3), np.asarray(radii), np.asarray(rms), nominal)
+        across.append(_piece_radii(flat, centre))
+    return FilletRadius(np.asarray(stations).reshape(-1, 3), np.asarray(radii), np.asarray(rms), nominal,
+                        np.asarray(across).reshape(-1, 2))
+
+
+def _piece_radii(flat: np.ndarray, centre: np.ndarray) -> tuple[float, float]:
+    """Smallest and largest radius of circles fitted to ACROSS_PIECES equal turns of a section
+    (angles about the section's best circle ``centre``); NaN where a piece has too few points."""
+    angle = np.arctan2(*(flat - centre).T[::-1])
+    rel = np.angle(np.exp(1j * (angle - np.angle(np.mean(np.exp(1j * angle))))))
+    edges = np.linspace(rel.min(), rel.max(), ACROSS_PIECES + 1)
+    piece = np.clip(np.searchsorted(edges, rel, side="right") - 1, 0, ACROSS_PIECES - 1)
+    radii = [fit_circle_2d(flat[piece == k])[1] for k in range(ACROSS_PIECES) if (piece == k).sum() >= MIN_SECTION_POINTS]
+    return (min(radii), max(radii)) if radii else (np.nan, np.nan)
 
 
 def _trimmed_circle(flat: np.ndarray) -> tuple[np.ndarray, float, float]:

@@ -118,7 +118,8 @@ def test_step_blends_are_found_as_fillet_bands():
             assert seg.group(name).kind == "fillet"
             # a G2 or G3 blend leaves its walls with zero curvature (G3: zero curvature rate), so its
             # first fraction of a millimetre cannot be told from the wall at this noise; measured
-            # 100 % (G2) and 83 to 90 % (G3) of the blends' area over seeds (docs/segmentation.md), guarded at 80 %
+            # 100 % (G2) and 83 to 90 % (G3) of the blends' area over seeds (docs/segmentation.md),
+            # guarded at 80 %
             assert share > (0.95 if kind == "arc" else 0.80), (name, share)
 
 

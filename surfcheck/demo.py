@@ -30,6 +30,7 @@ from surfcheck.continuity import grade_seam
 from surfcheck.io import read_part, save_part, write_atomic
 from surfcheck.part import Part
 from surfcheck.seams import Curve, SeamIndex
+from surfcheck.segment import seams_of_segmentation, segment_part
 from surfcheck.report import write_report
 from surfcheck.shapes import Profile, add_normal_noise, arc, clothoid, corner, extrude, line, ramp
 from surfcheck.results import CAUTION, grade_document, parse_requirement, verdict
@@ -169,35 +170,57 @@ def run_demo(out: str | Path, say=print) -> dict:
             f" {len(index.seams)} seams, {len(index.chains)} boundary chains")
         _write_json(out / f"{stem}-inspect.json", summary)
         if index.seams:
-            results["grades"][name] = _grade_and_review(loaded, index, out / f"{stem}-review", say)
-        elif name == "housing-scan.stl":  # grouped by the nominal part's faces, then graded as a scan
+            results["grades"][name] = _grade_and_review(loaded, index.seams, out / f"{stem}-review", say)
+        elif name == "housing-scan.stl":  # graded as a scan both ways: through the nominal, and segmented
             grouped = replace(loaded, part=transfer_groups(read_part(samples["housing.obj"]).part, loaded.part))
             say(f"{name}: face groups transferred from housing.obj")
-            results["grades"][name] = _grade_and_review(grouped, SeamIndex(grouped.part), out / f"{stem}-review",
-                                                        say, "scan")
+            results["grades"][name] = _grade_and_review(grouped, SeamIndex(grouped.part).seams,
+                                                        out / f"{stem}-review", say, "scan")
+            segmentation = segment_part(loaded.part)
+            save_part(segmentation.part, out / f"{stem}-segmented.obj")
+            say(f"{name}: segmented into " + ", ".join(g.name for g in segmentation.groups)
+                + f" (written to {stem}-segmented.obj)")
+            built = _built_groups(segmentation.part, grouped.part)
+            results["grades"][f"{name} (segmented)"] = _grade_and_review(
+                replace(loaded, part=segmentation.part), seams_of_segmentation(segmentation),
+                out / f"{stem}-segmented-review", say, "scan", built)
     _write_json(out / "demo.json", results)
     say(CAUTION)
     return results
 
 
-def _seam_line(seam: dict) -> str:
+def _built_groups(segmented: Part, grouped: Part) -> dict[str, str]:
+    """Segmented group -> the built group holding most of its area (both label the same triangles)."""
+    names = {}
+    for index, name in enumerate(segmented.group_names):
+        mine = segmented.face_group == index
+        area = np.bincount(grouped.face_group[mine], segmented.face_areas[mine], len(grouped.group_names))
+        names[name] = grouped.group_names[int(np.argmax(area))]
+    return names
+
+
+def _seam_line(seam: dict, built: dict[str, str]) -> str:
     """One line per graded seam: what it achieved, what stopped it, what it was built as."""
     achieved = f"G{seam['achieved']}" if seam["achieved"] >= 0 else "none"
     limit = seam["limited_by"]
     why = f", {limit['order']} {limit['status']}" if limit else ""
-    designed = DESIGNED.get(tuple(seam["groups"]))
-    return f"  {seam['id']} {' | '.join(seam['groups'])}: achieved {achieved}{why} (built as G{designed})"
+    pair = tuple(built.get(g, g) for g in seam["groups"])
+    designed = DESIGNED.get(pair, DESIGNED.get(pair[::-1]))
+    known = "" if designed is None else f" (built as G{designed})"
+    where = "" if pair == tuple(seam["groups"]) else f" [{' | '.join(pair)}]"
+    return f"  {seam['id']} {' | '.join(seam['groups'])}{where}: achieved {achieved}{why}{known}"
 
 
-def _grade_and_review(loaded, index: SeamIndex, folder: Path, say, tolerance: str = "general") -> dict:
-    """Grade every seam of a grouped sample against a tolerance profile, print one line per seam and
-    write its review page (with result.json)."""
+def _grade_and_review(loaded, seams: list[Curve], folder: Path, say, tolerance: str = "general",
+                      built: dict[str, str] | None = None) -> dict:
+    """Grade seams of a grouped sample against a tolerance profile, print one line per seam (with the
+    built groups ``built`` maps its groups to) and write its review page (with result.json)."""
     part = loaded.part
     profile = load_profile(tolerance).in_units(part.units)
     required = parse_requirement(REVIEW_REQUIREMENT)
-    grades = [grade_seam(part, seam, profile) for seam in index.seams]
+    grades = [grade_seam(part, seam, profile) for seam in seams]
     for seam in grade_document(part, grades, profile, required)["seams"]:
-        say(_seam_line(seam))
+        say(_seam_line(seam, built or {}))
     page = write_report(part, grades, profile, required, folder,
                         parameters={"stations": None, "spacing": None, "seams": ["all"]},
                         summary=part_summary(loaded))

@@ -11,8 +11,8 @@ profile is made to a known continuity class, so the demo shows every grade:
 
 The files: the part as OBJ with groups, as binary STL, as PLY with a group property, and a "scanned"
 copy (moved to a scanner's frame, normal noise of 0.01 mm, no groups), and the part with its edge
-fillet and CUT_BACK of each face beside it cut away (a gap the blend demo bridges at K = 1, 2, 3). Regenerate sample_meshes/ with
-`python -m surfcheck.demo sample_meshes`.
+fillet and CUT_BACK of each face beside it cut away (a gap the blend demo bridges at K = 1, 2, 3).
+Regenerate sample_meshes/ with `python -m surfcheck.demo sample_meshes`.
 """
 
 from __future__ import annotations
@@ -43,8 +43,9 @@ DEPTH = 16.0  # mm of extrusion
 EDGE = 0.4  # mm, mesh edge length
 REVIEW_REQUIREMENT = "G2"  # what the demo's reviews check: the styling surfaces of the shell
 CUT_AWAY = "edge-fillet"  # the poor fillet the blend demo replaces
-# mm of side-wall and top cut away beside it: legs of 12 mm to the corner, so that the patch's curvature
-# build-up at each seam (about a sixth of a leg) spans enough rows to be read at G2 and G3 (docs/blend.md)
+# mm of side-wall and top cut away beside it: legs of 12 mm to the corner. A patch's curvature reaches half
+# its peak within about an eighth of a leg from each seam; with 6 mm legs no practical mesh let the
+# grader read G2 or G3 there, with 12 mm it does (docs/blend.md, "The demo gap")
 CUT_BACK = 6.0
 SCAN_NOISE = 0.01  # mm, standard deviation along the normal (a structured-light scanner's order)
 SCAN_MOTION = (Rotation.from_euler("xyz", [12.0, -7.0, 31.0], degrees=True).as_matrix(), np.array([41.0, -13.0, 6.5]))

@@ -43,8 +43,8 @@ class Section:
 
     ``side_a``/``side_b`` are (n, 2) section coordinates of the strip vertices ``ids_a``/``ids_b``;
     ``end_a``/``end_b`` where each side's data meets the seam (the same point on a welded seam).
-    ``edge`` is the typical edge length near the seam, ``edges`` each side's own scale for its fit
-    (see side_spacings).
+    ``edge`` is the typical edge length near the seam, ``scales`` each side's scale for its one-sided
+    fit (see side_spacings).
     """
 
     index: int
@@ -61,7 +61,7 @@ class Section:
     end_b: np.ndarray
     welded: bool
     edge: float
-    edges: tuple[float, float]
+    scales: tuple[float, float]
 
     def to_world(self, xy: np.ndarray) -> np.ndarray:
         """3D positions of section coordinates (n, 2) or (2,)."""
@@ -164,7 +164,7 @@ def cut_sections(
     nearest_seam = _SeamLocator(seam.points, seam.closed, 0.25 * h)
     border_b = None if welded else border_vertices(part, group_b)
     groups = (part.group_index(group_a), part.group_index(group_b))
-    edges = side_spacings(part, seam, groups, h)
+    scales = side_spacings(part, seam, groups, h)
     sections = []
     for index, s in enumerate(positions):
         # along a tightly curved seam the strip narrows until the seam turns by MAX_STRIP_TURN over it
@@ -210,7 +210,7 @@ def cut_sections(
             end_b = pts[dist <= dist.min() + 0.5 * h].mean(axis=0)
         sections.append(Section(index, float(s), frame.origin, frame.tangent, normal, cross,
                                 xy_a[keep_a], xy_b[keep_b], near_a[keep_a], near_b[keep_b],
-                                end_a, end_b, welded, h, edges))
+                                end_a, end_b, welded, h, scales))
     return sections
 
 

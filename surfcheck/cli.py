@@ -211,7 +211,7 @@ def blend(
     order: int = typer.Option(..., "--order", help="Contact order K to reach on both seams: 1, 2 or 3."),
     step: str = typer.Option("hermite", "--step", help="Smooth step: hermite (default), rational, exp or linear."),
     span: Optional[float] = typer.Option(None, "--span", help="How far each side's extension reaches, in part units."),
-    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default: columns as the chains' edges, rows from the span)."),
+    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default: from the chains and the span)."),
     out_patch: Optional[Path] = typer.Option(None, "--out", help="Write the patch alone (.obj, .ply, .stl)."),
     merged_file: Optional[Path] = typer.Option(None, "--merged", help="Write part(s) + patch, welded, as one grouped file."),
     tolerance: str = TOLERANCE_OPT,

@@ -32,6 +32,11 @@ MAX_ORDER = 3  # the extensions carry tangent, curvature and curvature rate
 FINE_T = 257  # samples per column for the cross arc length
 LEAN_BACK = 0.01  # a section may reach this fraction of the gap behind a side's boundary (from memory)
 MAX_TURN_PER_EDGE = 0.5  # radians a section may turn over one edge length and still be shown (from memory)
+# Default row spacing across the gap: at most the shortest span / ROWS_PER_SPAN. The patch's curvature
+# rises to half its peak within about an eighth of the span from each seam; measured on the demo gap
+# (docs/blend.md), 100 rows per span let the grader read G3 there, 60 do not.
+ROWS_PER_SPAN = 100
+MAX_ROW_REFINEMENT = 4.0  # ... but rows no closer than the chains' edges / this (bounds the triangle count)
 
 
 @dataclass(frozen=True)
@@ -77,6 +82,7 @@ class BlendResult:
     order: int
     step: str
     spacing: float
+    row_spacing: float
     surface: BlendSurface
     column_u: np.ndarray
     mapping: ChainMap
@@ -94,8 +100,10 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     resolvable on a practical mesh (docs/blend.md).
 
     ``span`` fixes both extensions' reach (part units); by default it is chosen per column from the
-    gap and the turn (see default_spans). ``resolution`` is the target edge length, by default the
-    median edge length of the two chains.
+    gap and the turn (see default_spans). ``resolution`` is the target edge length. By default the
+    columns are the median edge length of the two chains apart, and the rows that or, where closer, the
+    shortest span / ROWS_PER_SPAN (not below the chains' edge / MAX_ROW_REFINEMENT): enough rows across
+    the patch's curvature build-up at each seam for the mesh grader to read the order (docs/blend.md).
     """
     _check_request(part_a, chain_a, part_b, chain_b, order, step, span, resolution)
     if part_a.units != part_b.units:
@@ -117,9 +125,11 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     else:
         span_a = span_b = np.full(columns, float(span))
     surface = BlendSurface(side_a, side_b, span_a, span_b, step, order)
+    row_spacing = resolution or float(np.clip(min(span_a.min(), span_b.min()) / ROWS_PER_SPAN,
+                                              spacing / MAX_ROW_REFINEMENT, spacing))
     fine_t = np.linspace(0.0, 1.0, FINE_T)
     columns_fine = surface.derivative(fine_t[:, None])  # (FINE_T, columns, 3)
-    t_rows = _rows_of_equal_arc_length(columns_fine, fine_t, spacing)
+    t_rows = _rows_of_equal_arc_length(columns_fine, fine_t, row_spacing)
     interior = surface.derivative(t_rows[1:-1]).reshape(-1, 3)
     V, F, row_a, row_b, vertex_u = _triangulate(chain_a, chain_b, interior, u, s_a, mapping.inverse(s_b))
     flip = boundary_direction(part_a, chain_a) > 0  # the patch must run along chain A against part A
@@ -129,9 +139,9 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     if boundary_direction(part_b, chain_b) == along_b:
         raise InputError(f"the triangles beside {chain_b.id} wind opposite to those beside {chain_a.id} "
                          "across the gap; reorient one part so that their normals agree")
-    problems = _column_problems(columns_fine, surface, chain_a, u, part_a.units, spacing)
+    problems = _column_problems(columns_fine, surface, chain_a, u, part_a.units, row_spacing)
     problems += _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface, u)
-    return BlendResult(V, F, row_a, row_b, chain_a, chain_b, order, step, spacing, surface, u, mapping,
+    return BlendResult(V, F, row_a, row_b, chain_a, chain_b, order, step, spacing, row_spacing, surface, u, mapping,
                        tuple(problems))
 
 

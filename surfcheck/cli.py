@@ -213,7 +213,7 @@ def blend(
     order: int = typer.Option(..., "--order", help="Contact order K to reach on both seams: 1, 2 or 3."),
     step: str = typer.Option("hermite", "--step", help="Smooth step: hermite (default), rational, exp or linear."),
     span: Optional[float] = typer.Option(None, "--span", help="How far each side's extension reaches, in part units."),
-    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default from the chains)."),
+    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default: from the chains and the span)."),
     out_patch: Optional[Path] = typer.Option(None, "--out", help="Write the patch alone (.obj, .ply, .stl)."),
     merged_file: Optional[Path] = typer.Option(None, "--merged", help="Write part(s) + patch, welded, as one grouped file."),
     tolerance: str = TOLERANCE_OPT,
@@ -242,7 +242,8 @@ def blend(
     grades = prove_blend(merged, profile)
     document = grade_document(merged.part, grades, profile, order,
                               {"from": chain_from, "to": chain_to, "order": order, "step": step, "span": span,
-                               "resolution": result.spacing, "problems": list(result.problems)})
+                               "resolution": result.spacing, "row_spacing": result.row_spacing,
+                               "problems": list(result.problems)})
     if as_json:
         print_json(document)
     else:
@@ -250,7 +251,8 @@ def blend(
             console.print(f"[red]problem:[/red] {problem}")
         print_grades(document)
         written = [str(p) for p in (out_patch, merged_file) if p]
-        console.print(f"patch: {len(result.vertices)} vertices, {len(result.faces)} triangles"
+        console.print(f"patch: {len(result.vertices)} vertices, {len(result.faces)} triangles, columns "
+                      f"{_fmt(result.spacing)} and rows {_fmt(result.row_spacing)} {part_a.units} apart"
                       + (f"; written {', '.join(written)}" if written else ""))
     raise typer.Exit(1 if result.problems or document["verdict"] == "fail" else 0)
 
@@ -408,3 +410,7 @@ def main() -> None:
         print(f"error: internal error ({type(exc).__name__}: {exc}); rerun with SURFCHECK_DEBUG=1 and report it",
               file=sys.stderr)
         sys.exit(2)
+
+
+if __name__ == "__main__":  # python -m surfcheck.cli, like python -m surfcheck
+    main()

@@ -166,7 +166,8 @@ def fit_sides(section: Section, shift: float) -> tuple[np.ndarray, np.ndarray, S
         end_b = end_a
     else:
         data_a, data_b, end_a, end_b = section.side_a, section.side_b, section.end_a, section.end_b
-    return data_a, data_b, fit_side(data_a, end_a, -1.0, section.edge), fit_side(data_b, end_b, 1.0, section.edge)
+    h_a, h_b = section.scales
+    return data_a, data_b, fit_side(data_a, end_a, -1.0, h_a), fit_side(data_b, end_b, 1.0, h_b)
 
 
 def grade_section(section: Section, profile: ToleranceProfile, search: bool = False) -> StationResult:

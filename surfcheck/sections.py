@@ -32,6 +32,8 @@ SEAM_FIT_EDGES = 20.0  # the seam is fitted over the strip and this many edge le
 MAX_STRIP_TURN = 0.2  # radians the seam may turn across a strip
 GEODESIC_SLACK = 1.3  # a side's point lies at most this many times farther along the mesh than in space
 MAX_SEAM_TURN = 0.5  # radians the seam may turn over its local fit (the fit narrows until it does not)
+FINER_SIDE = 0.5  # a side sampled across the seam closer than this many typical edge lengths is fitted on
+# its own scale (common practice, no published source)
 _SEAM_FIT_DEGREE = 5
 
 
@@ -41,7 +43,8 @@ class Section:
 
     ``side_a``/``side_b`` are (n, 2) section coordinates of the strip vertices ``ids_a``/``ids_b``;
     ``end_a``/``end_b`` where each side's data meets the seam (the same point on a welded seam).
-    ``edge`` is the typical edge length near the seam.
+    ``edge`` is the typical edge length near the seam, ``scales`` each side's scale for its one-sided
+    fit (see side_spacings).
     """
 
     index: int
@@ -58,6 +61,7 @@ class Section:
     end_b: np.ndarray
     welded: bool
     edge: float
+    scales: tuple[float, float]
 
     def to_world(self, xy: np.ndarray) -> np.ndarray:
         """3D positions of section coordinates (n, 2) or (2,)."""
@@ -108,6 +112,24 @@ def typical_edge_length(part: Part, vertices: np.ndarray) -> float:
     return float(np.median(lengths))
 
 
+def side_spacings(part: Part, seam: Curve, groups: tuple[int, int], h: float) -> tuple[float, float]:
+    """Each side's sampling step across the seam, the scale of its one-sided fit: the median distance
+    from the seam of that side's first ring of vertices off it, where that is under FINER_SIDE * ``h``
+    (on an even mesh it is about 0.9 h), else ``h``. A patch whose rows are much closer than the part's
+    edges is then fitted over windows of its own rows, not of the coarse side's edges (its curvature may
+    change within a few of those)."""
+    edges = part.edges
+    at_seam = np.isin(edges, seam.vertices).any(axis=1)
+    seam_samples = _SeamLocator(seam.points, seam.closed, 0.05 * h).tree
+    scales = []
+    for group in groups:
+        on_side = (part.edge_faces @ (part.face_group == group).astype(np.int64)) > 0
+        ring = np.setdiff1d(edges[at_seam & on_side], seam.vertices)
+        own = float(np.median(seam_samples.query(part.vertices[ring])[0])) if len(ring) else h
+        scales.append(own if own < FINER_SIDE * h else h)
+    return scales[0], scales[1]
+
+
 def cut_sections(
     part: Part,
     seam: Curve,
@@ -142,6 +164,7 @@ def cut_sections(
     nearest_seam = _SeamLocator(seam.points, seam.closed, 0.25 * h)
     border_b = None if welded else border_vertices(part, group_b)
     groups = (part.group_index(group_a), part.group_index(group_b))
+    scales = side_spacings(part, seam, groups, h)
     sections = []
     for index, s in enumerate(positions):
         # along a tightly curved seam the strip narrows until the seam turns by MAX_STRIP_TURN over it
@@ -187,7 +210,7 @@ def cut_sections(
             end_b = pts[dist <= dist.min() + 0.5 * h].mean(axis=0)
         sections.append(Section(index, float(s), frame.origin, frame.tangent, normal, cross,
                                 xy_a[keep_a], xy_b[keep_b], near_a[keep_a], near_b[keep_b],
-                                end_a, end_b, welded, h))
+                                end_a, end_b, welded, h, scales))
     return sections
 
 

@@ -220,12 +220,15 @@ def test_a_span_too_long_for_the_gap_is_reported_with_its_reason():
 
 def test_a_gap_too_short_for_its_turn_is_reported_with_its_reason():
     # A 150-degree turn across a 0.52 mm gap needs a bend of radius about 0.2 mm (the legs' inscribed
-    # circle: leg * tan(15 deg) = 0.27 mm), under the 0.28 mm triangles of the sides.
+    # circle: leg * tan(15 deg) = 0.27 mm), under patch triangles as large as the sides' 0.28 mm.
     a, b = pair(plane_a(), corner_b(150, 1.0, 2.0), 2.0)
-    blend = build_blend(a.part, a.chain, b.part, b.chain, 2)
+    blend = build_blend(a.part, a.chain, b.part, b.chain, 2, resolution=0.28)
     assert len(blend.problems) == 1 and "too short for the turn" in blend.problems[0]
     assert "bends too tightly" in blend.problems[0]
     assert "must turn 150 degrees" in blend.problems[0] and "\n" not in blend.problems[0]
+    # by default the rows are a quarter of the chains' 0.33 mm edges apart (blend.MAX_ROW_REFINEMENT):
+    # 0.4 rad per row, under the 0.5 rad per edge that a mesh can show
+    assert build_blend(a.part, a.chain, b.part, b.chain, 2).problems == ()
     a, b = pair(plane_a(), corner_b(120, 2.0, 4.0), 4.0)
     assert build_blend(a.part, a.chain, b.part, b.chain, 2).problems == ()
 

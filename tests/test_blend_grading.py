@@ -2,9 +2,7 @@
 default profile, on the merged part, seam by seam.
 
 Each case is first checked against the exact section jets of its surfaces (blend_fixtures.achieved_order),
-so a failure below is the mesh grader's reading of a patch whose contact is known. Cases the grader
-does not yet read right are marked as strict expected failures with the reason found; they turn into
-errors as soon as the grader reads them right, and the mark is then to be removed.
+so a failure below is the mesh grader's reading of a patch whose contact is known.
 """
 
 from __future__ import annotations
@@ -18,12 +16,6 @@ from surfcheck.tolerances import load_profile
 
 PROFILE = load_profile("general")
 
-NOT_RESOLVED = "grader: reads a G1 or G2 jump that the exact section jets do not have"
-KNOWN = {
-    ("plane and parabolic sheet", 2): NOT_RESOLVED,
-    ("plane and parabolic sheet", 3): NOT_RESOLVED,
-}
-
 
 def graded(case: str, order: int, step: str):
     sheet_a, sheet_b, gap, closed = GRADED_CASES[case]
@@ -34,11 +26,7 @@ def graded(case: str, order: int, step: str):
     return blend, a, b, grades
 
 
-@pytest.mark.parametrize(
-    "case,order",
-    [pytest.param(c, k, marks=pytest.mark.xfail(strict=True, reason=KNOWN[(c, k)])) if (c, k) in KNOWN else (c, k)
-     for c in sorted(GRADED_CASES) for k in (1, 2, 3)],
-)
+@pytest.mark.parametrize("case,order", [(c, k) for c in sorted(GRADED_CASES) for k in (1, 2, 3)])
 def test_grader_confirms_the_order_on_both_seams(case, order):
     # Reference: exact section jets (blend_fixtures) for the patch; then the estimator on the mesh with
     # the general profile (common practice, from memory). Both must reach the order asked for.

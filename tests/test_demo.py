@@ -44,3 +44,22 @@ def test_nominal_sample_grades_as_built():
     profile = load_profile("general")
     achieved = {seam.groups: grade_seam(part, seam, profile).achieved for seam in SeamIndex(part).seams}
     assert achieved == DESIGNED
+
+
+def test_gap_blends_grade_their_order_on_the_merged_part():
+    # Reference: the demo's design and the requirement of its issue (a patch of order K bridges the
+    # gap, and grading the merged part confirms the order). A patch of order K meets both sides with
+    # G^K contact by construction (smooth step flat to order K, K-jet extensions: docs/blend.md);
+    # graded with the general profile (common practice, from memory) at the default resolution.
+    from surfcheck.blend import build_blend, merge_with_patch, prove_blend
+    from surfcheck.demo import gap_chains
+    from surfcheck.tolerances import load_profile
+
+    part = load_part(SAMPLES / "housing-gap.obj")
+    chain_a, chain_b = gap_chains(part)
+    assert {chain_a.id, chain_b.id} == {"chain-2.3", "chain-1.12"}  # the ids the demo's commands use
+    for order in (1, 2, 3):
+        blend = build_blend(part, chain_a, part, chain_b, order)
+        assert blend.problems == ()
+        grades = prove_blend(merge_with_patch(part, blend), load_profile("general"))
+        assert min(g.achieved for g in grades) >= order, (order, [(g.achieved, g.limited_by) for g in grades])

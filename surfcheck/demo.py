@@ -217,7 +217,7 @@ def _seam_line(seam: dict, built: dict[str, str]) -> str:
     pair = tuple(built.get(g, g) for g in seam["groups"])
     designed = DESIGNED.get(pair, DESIGNED.get(pair[::-1]))
     known = "" if designed is None else f" (built as G{designed})"
-    where = "" if pair == tuple(seam["groups"]) else f" [{' | '.join(pair)}]"
+    where = "" if pair == tuple(seam["groups"]) else f" (= {' | '.join(pair)})"
     return f"  {seam['id']} {' | '.join(seam['groups'])}{where}: achieved {achieved}{why}{known}"
 
 

@@ -193,7 +193,7 @@ def _jet_kernel(grid, rows, radius, slots, ex, ey):
                 continue
             tangent_frame(n0, n1, n2, frame)
             count, found, gap, local = local_neighbours(grid, i, radius, slots, frame, found, gap, local)
-            residual = fit_local_jet(local, count, ex, ey, S, Z, M, rhs, coef)
+            residual = fit_local_jet(local, count, ex, ey, degree, S, Z, M, rhs, coef)
             for s in range(p):
                 residual -= coef[s] * rhs[s]
             # curvatures and directions of the fitted graph at the vertex

@@ -71,6 +71,7 @@ def _jump_kernel(grid, rows, radius, slots, directions, jet_ex, jet_ey, half_ex,
     N = grid[1]
     n_rows, p = len(rows), len(half_ex)
     degree = int(np.max(half_ex + half_ey))  # the jet's degree must be no higher
+    jet_degree = int(np.max(jet_ex + jet_ey))
     top = 2 * degree
     jump_out, angle_out = np.full(n_rows, np.nan), np.full(n_rows, np.nan)
     across = np.full((n_rows, 3), np.nan)
@@ -87,7 +88,7 @@ def _jump_kernel(grid, rows, radius, slots, directions, jet_ex, jet_ey, half_ex,
                 continue
             tangent_frame(N[i, 0], N[i, 1], N[i, 2], frame)
             count, found, gap, local = local_neighbours(grid, i, radius, slots, frame, found, gap, local)
-            fit_local_jet(local, count, jet_ex, jet_ey, S[0], Z[0], M, rhs, coef)
+            fit_local_jet(local, count, jet_ex, jet_ey, jet_degree, S[0], Z[0], M, rhs, coef)
             _, _, w0, w1 = graph_shape(coef[1], coef[2], 2.0 * coef[3], coef[4], 2.0 * coef[5])
             start = np.arctan2(w1, w0)
             best_jump, best_angle, best_theta = np.nan, np.nan, start

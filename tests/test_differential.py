@@ -26,6 +26,7 @@ from surfcheck.differential import (
     vertex_normals,
 )
 from surfcheck.errors import InputError
+from surfcheck.jetkernel import quadric_power_sums
 from tests.surfaces import cylinder, sphere, torus
 
 R_TORUS, r_TORUS = 3.0, 1.0
@@ -244,3 +245,24 @@ def test_degenerate_triangles_do_not_spoil_their_neighbours():
         c = principal_curvatures(V, F)
     assert np.isfinite(H).all() and np.isfinite(K).all() and np.isfinite(c.k1).all()
     assert np.allclose(c.k1, 1.0, rtol=0.03)  # sphere: k1 = 1/R
+
+
+def test_unrolled_quadric_power_sums_equal_the_general_ones():
+    # jetkernel.quadric_power_sums is add_monomials with top 4 and 2, unrolled; both must give the same
+    # sums on any points (reference: the definitions S[a, b] = sum x^a y^b, Z[a, b] = sum z x^a y^b,
+    # evaluated here with numpy's power and sum)
+    rng = np.random.default_rng(11)
+    local = rng.uniform(-1.0, 1.0, (40, 3))
+    count = 33  # only the first count rows count
+    S, Z = np.full((5, 5), np.nan), np.full((3, 3), np.nan)
+    zz = quadric_power_sums(local, count, S, Z)
+    x, y, z = local[:count].T
+    for a in range(5):
+        for b in range(5):
+            expected = np.sum(x**a * y**b) if a + b <= 4 else 0.0
+            assert S[a, b] == pytest.approx(expected, rel=1e-12, abs=1e-12)
+    for a in range(3):
+        for b in range(3):
+            expected = np.sum(z * x**a * y**b) if a + b <= 2 else 0.0
+            assert Z[a, b] == pytest.approx(expected, rel=1e-12, abs=1e-12)
+    assert zz == pytest.approx(np.sum(z * z), rel=1e-12)

@@ -229,6 +229,9 @@ def _grade_and_review(loaded, seams: list[Curve], folder: Path, say, tolerance: 
     profile = load_profile(tolerance).in_units(part.units)
     required = parse_requirement(REVIEW_REQUIREMENT)
     grades = [grade_seam(part, seam, profile) for seam in seams]
+    u = part.units
+    say(f"  tolerance profile {profile.name}: G0 {profile.g0_gap:g} {u}, G1 {profile.g1_angle:g} deg,"
+        f" G2 {profile.g2_abs:g} 1/{u} (or {profile.g2_rel:.0%}), G3 {profile.g3_abs:g} 1/{u}^2 (or {profile.g3_rel:.0%})")
     for seam in grade_document(part, grades, profile, required)["seams"]:
         say(_seam_line(seam, built or {}))
     page = write_report(part, grades, profile, required, folder,

@@ -25,21 +25,48 @@ def folded_faces(V: np.ndarray, F: np.ndarray) -> np.ndarray:
 
 
 def crossing_pairs(V: np.ndarray, F: np.ndarray, query: np.ndarray) -> np.ndarray:
-    """(k, 2) pairs (query face, other face) of faces that intersect and share no vertex."""
+    """(k, 2) pairs (query face, other face) of faces that intersect and share no vertex.
+
+    Two triangles can meet only if their centres lie within the sum of their reaches (centre to
+    farthest corner), so within twice the larger reach: each candidate pair is found from its larger
+    triangle's ball (a fixed-radius search per face; the work follows the local triangle sizes, not the
+    largest triangle of the part, so a fine patch beside coarse faces stays cheap), then tested edge
+    against triangle.
+    """
     corners = V[F]
     centre = corners.mean(axis=1)
     reach = np.linalg.norm(corners - centre[:, None, :], axis=2).max(axis=1)
-    near = cKDTree(centre[query]).sparse_distance_matrix(
-        cKDTree(centre), 2.0 * reach.max(), output_type="ndarray"
-    )
-    first, second = query[near["i"]], near["j"].astype(np.int64)
-    keep = (first < second) | ~np.isin(second, query)  # a pair of query faces once, query-other always
-    first, second = first[keep], second[keep]
+    rank = np.lexsort((np.arange(len(F)), reach))  # faces by (reach, index): "larger" is later
+    order = np.empty(len(F), dtype=np.int64)
+    order[rank] = np.arange(len(F))
+    query = np.unique(np.asarray(query, dtype=np.int64))
+    is_query = np.zeros(len(F), dtype=bool)
+    is_query[query] = True
+    box = (centre[query].min(axis=0) - 2.0 * reach.max(), centre[query].max(axis=0) + 2.0 * reach.max())
+    around = np.flatnonzero(~is_query & np.all((centre >= box[0]) & (centre <= box[1]), axis=1))
+    found = [
+        _smaller_within(query, np.arange(len(F)), centre, reach, order),  # the query face is the larger
+        _smaller_within(around, query, centre, reach, order)[:, ::-1],  # another face is the larger
+    ]
+    first, second = np.concatenate(found).T
     shares = (F[first][:, :, None] == F[second][:, None, :]).any(axis=(1, 2))
     close = np.linalg.norm(centre[first] - centre[second], axis=1) <= reach[first] + reach[second]
     first, second = first[~shares & close], second[~shares & close]
     hit = _edges_cross(corners[first], corners[second]) | _edges_cross(corners[second], corners[first])
     return np.stack([first[hit], second[hit]], axis=1)
+
+
+def _smaller_within(larger: np.ndarray, among: np.ndarray, centre: np.ndarray, reach: np.ndarray,
+                    order: np.ndarray) -> np.ndarray:
+    """(k, 2) pairs (i, j): i of ``larger``, j of ``among`` ranked below i, centres within 2 reach[i]."""
+    if len(larger) == 0 or len(among) == 0:
+        return np.empty((0, 2), dtype=np.int64)
+    balls = cKDTree(centre[among]).query_ball_point(centre[larger], 2.0 * reach[larger], return_sorted=False)
+    sizes = np.fromiter((len(b) for b in balls), dtype=np.int64, count=len(balls))
+    i = np.repeat(larger, sizes)
+    j = among[np.fromiter((k for b in balls for k in b), dtype=np.int64, count=int(sizes.sum()))]
+    below = order[j] < order[i]
+    return np.stack([i[below], j[below]], axis=1)
 
 
 def _edges_cross(edge_tris: np.ndarray, tris: np.ndarray) -> np.ndarray:

@@ -314,3 +314,24 @@ def test_chains_found_on_the_part_blend_like_hand_made_ones():
 
     blend = build_blend(a.part, edge_chain(a), b.part, edge_chain(b), 2)
     assert blend.problems == () and achieved_order(blend, a, b) >= (2, 2)
+
+
+def test_crossing_pairs_of_a_query_subset_among_mixed_sizes_match_libigl():
+    # Reference: libigl's tri_tri_intersection_test_3d on every pair with a query face in it: small
+    # "patch" triangles among large ones, so pairs are found from whichever triangle is the larger
+    rng = np.random.default_rng(5)
+    large = rng.uniform(0.0, 1.0, (90, 3, 3))
+    small = rng.uniform(0.0, 1.0, (300, 1, 3)) + rng.uniform(-0.06, 0.06, (300, 3, 3))
+    V = np.concatenate([large, small]).reshape(-1, 3)
+    F = np.arange(len(V)).reshape(-1, 3)
+    query = np.arange(90, len(F))[::2]  # half of the small triangles
+    found = {tuple(sorted(p)) for p in crossing_pairs(V, F, query).tolist()}
+    expected = set()
+    for i in query:
+        for j in range(len(F)):
+            if j == i or (j in query and j < i):
+                continue
+            hit, coplanar, *_ = igl.tri_tri_intersection_test_3d(*V[F[i]][:, None, :], *V[F[j]][:, None, :])
+            if hit and not coplanar:
+                expected.add(tuple(sorted((int(i), j))))
+    assert found == expected and len(expected) > 20

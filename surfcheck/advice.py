@@ -49,9 +49,9 @@ def advise(grade: SeamGrade, coverage: float) -> Advice | None:
         text = (f"{name} fails {at}: {summary.value:.3g}{unit} exceeds {summary.tolerance:.3g}{unit} by more"
                 f" than U = {expanded:.2g}{unit}; it is {DEFECTS[k]}")
     elif not expanded < summary.tolerance:
+        looser = "" if grade.tolerance == "scan" else " (or, for a scan, `--tolerance scan`)"
         text = (f"{name} cannot be decided {at}: U = {expanded:.2g}{unit} alone exceeds the tolerance"
-                f" {summary.tolerance:.3g}{unit}; it needs denser or less noisy data (or, for a scan,"
-                " `--tolerance scan`)")
+                f" {summary.tolerance:.3g}{unit}; it needs denser or less noisy data{looser}")
     else:
         text = (f"{name} is borderline {at}: {summary.value:.3g}{unit} is within U = {expanded:.2g}{unit} of"
                 f" the tolerance {summary.tolerance:.3g}{unit}; denser data narrows U, else treat it as not shown")

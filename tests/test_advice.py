@@ -73,3 +73,10 @@ def test_a_value_on_the_tolerance_is_borderline():
     _, advice = advice_for("arc", on_the_limit)
     assert (advice[0].order, advice[0].status) == ("G2", "not resolved")
     assert "borderline" in advice[0].text and "0.2 1/mm is within U" in advice[0].text
+
+
+def test_a_scan_graded_with_the_scan_profile_is_not_sent_to_it_again():
+    scan_like = ToleranceProfile("scan", g0_gap=0.05, g1_angle=0.1, g2_abs=0.05, g2_rel=0.25, g3_abs=0.05, g3_rel=0.5)
+    _, advice = advice_for("arc", scan_like, noise=0.01)
+    undecided = [a for a in advice if a is not None and "cannot be decided" in a.text]
+    assert undecided and not any("--tolerance scan" in a.text for a in undecided)

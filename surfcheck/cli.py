@@ -140,6 +140,7 @@ TOLERANCE_OPT = typer.Option("general", "--tolerance", help="Profile name (styli
 REQUIRE_OPT = typer.Option(None, "--require", help="G0, G1, G2 or G3: exit 1 if a seam falls short.")
 STATIONS_OPT = typer.Option(None, "--stations", min=3, help="Stations per seam (default from its length).")
 SPACING_OPT = typer.Option(None, "--spacing", help="Distance between stations, in part units.")
+NOMINAL_OPT = typer.Option(None, "--nominal", help="A grouped nominal part: align the scan to it and grade by its group names.")
 
 
 @app.command()
@@ -153,7 +154,7 @@ def grade(
     units: str = UNITS_OPT,
     as_json: bool = JSON_OPT,
     report_dir: Optional[Path] = typer.Option(None, "--report", help="Also write the review page (index.html, pictures, result.json) to this folder."),
-    nominal: Optional[Path] = typer.Option(None, "--nominal", help="A grouped nominal part: align the scan to it and grade by its group names."),
+    nominal: Optional[Path] = NOMINAL_OPT,
 ) -> None:
     """Grade G0..G3 continuity across seams, with uncertainty, against a tolerance profile.
 
@@ -200,9 +201,10 @@ def report(
     stations: Optional[int] = STATIONS_OPT,
     spacing: Optional[float] = SPACING_OPT,
     units: str = UNITS_OPT,
+    nominal: Optional[Path] = NOMINAL_OPT,
 ) -> None:
     """Grade seams and write a review page with pictures and plots (DIR/index.html, DIR/result.json)."""
-    grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out, nominal=None)
+    grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out, nominal=nominal)
 
 
 @app.command()

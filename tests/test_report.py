@@ -170,3 +170,18 @@ def test_report_into_a_file_is_a_one_line_error(tmp_path):
     assert run.returncode == 2
     assert run.stderr.startswith("error: ") and len(run.stderr.strip().splitlines()) == 1
     assert taken.read_text() == "keep me"
+
+
+def test_report_of_a_scan_through_its_nominal_names_the_nominal_groups(tmp_path):
+    # the demo's scan (no groups) and its nominal part (surfcheck.demo): the review grades the seam the
+    # user named by the nominal's group names, and records the alignment it used
+    samples = Path(__file__).resolve().parents[1] / "sample_meshes"
+    out = tmp_path / "review"
+    run = run_cli("report", str(samples / "housing-scan.stl"), "--nominal", str(samples / "housing.obj"),
+                  "--seam", "top:front-blend", "--tolerance", "scan", "--out", str(out))
+    assert run.returncode == 0, run.stderr
+    document = json.loads((out / "result.json").read_text())
+    jsonschema.validate(document, grade_document_schema())
+    assert [seam["groups"] for seam in document["seams"]] == [["top", "front-blend"]]
+    assert document["parameters"]["nominal"].endswith("housing.obj")
+    assert document["parameters"]["alignment"]["rms"] < 0.05  # a 0.01 mm noise scan (demo.SCAN_NOISE)

@@ -27,38 +27,35 @@ def best_group(truth, seg, t):
     return seg.part.group_names[int(np.argmax(area))], float(area.max() / area.sum())
 
 
+def segmentation_row(name: str, scan, noise: float, truth, entry) -> None:
+    """Segment ``scan``, timed, and print its row: per true piece t, ``entry(t, seg, group, share)``
+    with the group holding most of the piece and the share of its area recovered."""
+    start = time.perf_counter()
+    seg = segment_part(scan)
+    took = time.perf_counter() - start
+    shares = [entry(t, seg, *best_group(truth, seg, t)) for t in range(len(truth.group_names))]
+    print(f"| {name} | {scan.n_faces} | {noise} | {took:.1f} | {len(seg.groups)} | {'; '.join(shares)} |")
+
+
 def segmentation_rows():
     cases = [("bracket", *bracket()), ("boss on plate", *boss_on_plate()), ("housing G2/G3", *housing())]
     print("| part | faces | noise (mm) | time (s) | groups found | true piece -> group: area recovered |")
     print("|---|---|---|---|---|---|")
     for name, truth, profile in cases:
-        scan, _ = scanned(truth, NOISE, seed=3)
-        start = time.perf_counter()
-        seg = segment_part(scan)
-        took = time.perf_counter() - start
-        shares = []
-        for t, kind in enumerate(profile.kinds):
-            g, share = best_group(truth, seg, t)
+
+        def entry(t, seg, g, share, profile=profile):
+            kind = profile.kinds[t]
             label = {"wall": "wall", "arc": f"r{profile.radii[t]:g}"}.get(kind, kind)
             extra = ""
             if kind == "arc":
                 mean = seg.group(g).fillet.mean
                 extra = f" r={mean:.3f} ({100 * (mean / profile.radii[t] - 1):+.2f} %)"
-            shares.append(f"{label}->{g} {100 * share:.1f} %{extra}")
-        print(f"| {name} | {scan.n_faces} | {NOISE} | {took:.1f} | {len(seg.groups)} | {'; '.join(shares)} |")
-    demo_rows()
+            return f"{label}->{g} {100 * share:.1f} %{extra}"
 
-
-def demo_rows():
+        segmentation_row(name, scanned(truth, NOISE, seed=3)[0], NOISE, truth, entry)
     scan, truth = scanned_part(), housing_part(edge=0.9 * EDGE, skew=0.3)
-    start = time.perf_counter()
-    seg = segment_part(scan)
-    took = time.perf_counter() - start
-    shares = []
-    for t, name in enumerate(truth.group_names):
-        g, share = best_group(truth, seg, t)
-        shares.append(f"{name}->{g} {100 * share:.1f} %")
-    print(f"| demo housing scan | {scan.n_faces} | 0.01 | {took:.1f} | {len(seg.groups)} | {'; '.join(shares)} |")
+    segmentation_row("demo housing scan", scan, 0.01, truth,
+                     lambda t, seg, g, share: f"{truth.group_names[t]}->{g} {100 * share:.1f} %")
 
 
 def transfer_rows():

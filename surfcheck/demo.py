@@ -201,12 +201,8 @@ def run_demo(out: str | Path, say=print) -> dict:
 
 def _built_groups(segmented: Part, grouped: Part) -> dict[str, str]:
     """Segmented group -> the built group holding most of its area (both label the same triangles)."""
-    names = {}
-    for index, name in enumerate(segmented.group_names):
-        mine = segmented.face_group == index
-        area = np.bincount(grouped.face_group[mine], segmented.face_areas[mine], len(grouped.group_names))
-        names[name] = grouped.group_names[int(np.argmax(area))]
-    return names
+    return {name: grouped.group_names[int(np.argmax(grouped.group_areas(segmented.face_group == index)))]
+            for index, name in enumerate(segmented.group_names)}
 
 
 def _seam_line(seam: dict, built: dict[str, str]) -> str:

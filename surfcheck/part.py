@@ -92,6 +92,11 @@ class Part:
         a, b, c = (self.vertices[self.faces[:, i]] for i in range(3))
         return 0.5 * np.linalg.norm(np.cross(b - a, c - a), axis=1)
 
+    def group_areas(self, faces: np.ndarray | None = None) -> np.ndarray:
+        """(groups,) area of the triangles ``faces`` (a boolean mask; None: all) in each group."""
+        chosen = np.ones(self.n_faces, dtype=bool) if faces is None else faces
+        return np.bincount(self.face_group[chosen], weights=self.face_areas[chosen], minlength=len(self.group_names))
+
     @cached_property
     def half_edges(self) -> np.ndarray:
         """(3m, 2) directed edges (F[:,0]->F[:,1], F[:,1]->F[:,2], F[:,2]->F[:,0]), face-major order."""

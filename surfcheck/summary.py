@@ -13,7 +13,7 @@ def part_summary(loaded: LoadResult) -> dict:
     """A JSON-ready summary of a part and of what loading it found."""
     part = loaded.part
     lengths = part.edge_lengths
-    areas = np.bincount(part.face_group, weights=part.face_areas, minlength=len(part.group_names))
+    areas = part.group_areas()
     counts = np.bincount(part.face_group, minlength=len(part.group_names))
     seams = SeamIndex(part)
     return {

@@ -18,9 +18,9 @@ import igl
 import numpy as np
 import pyvista as pv
 
-from surfcheck import differential
-from surfcheck.differential import principal_curvatures
-from tests.surfaces import cylinder, sphere, torus
+from surfcheck.geometry import differential
+from surfcheck.geometry.differential import principal_curvatures
+from tests.fixtures.surfaces import cylinder, sphere, torus
 
 
 def errors(estimate, exact):

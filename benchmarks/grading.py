@@ -25,11 +25,11 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from surfcheck import shapes as S  # noqa: E402
-from surfcheck.continuity import grade_seam  # noqa: E402
-from surfcheck.sections import cut_sections  # noqa: E402
-from surfcheck.tolerances import GENERAL, SCAN  # noqa: E402
-from tests.synthetic import RADIUS, RAMP, build, fillet, part_and_seams  # noqa: E402
+from surfcheck.demo.scenario import shapes as S  # noqa: E402
+from surfcheck.grading.continuity import grade_seam  # noqa: E402
+from surfcheck.grading.sections import cut_sections  # noqa: E402
+from surfcheck.grading.tolerances import GENERAL, SCAN  # noqa: E402
+from tests.fixtures.synthetic import RADIUS, RAMP, build, fillet, part_and_seams  # noqa: E402
 
 DESIGNED = {"sharp": 0, "arc": 1, "clothoid": 2, "smoothstep": 3}
 
@@ -127,7 +127,7 @@ LIP_SEAMS = ("front-wall|lip-blend", "lip-blend|underside")
 def demo_scan():
     """The demo scan labelled through the nominal part: (part, seams by their groups "a|b")."""
     from surfcheck.io import load_part
-    from surfcheck.selection import select_seams
+    from surfcheck.grading.selection import select_seams
 
     root = Path(__file__).resolve().parents[1] / "sample_meshes"
     sel = select_seams(load_part(root / "housing-scan.stl"), ["all"], load_part(root / "housing.obj"))
@@ -136,7 +136,7 @@ def demo_scan():
 
 def demo_lip(part, seams) -> None:
     """Per station and side, |kappa| / u and |rate| / u on the lip-blend seams (truth 0 on both sides)."""
-    from surfcheck.continuity import fit_sides
+    from surfcheck.grading.continuity import fit_sides
 
     print("\ndemo scan via nominal, lip-blend seams at 8 stations: |error| / u per station, sides A / B "
           "(truth 0 for curvature and rate)")

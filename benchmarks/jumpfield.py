@@ -18,9 +18,9 @@ import time
 
 import numpy as np
 
-from surfcheck.differential import principal_curvatures
-from surfcheck.jumpfield import jump_fields
-from tests.surfaces import extruded_profile
+from surfcheck.geometry.differential import principal_curvatures
+from surfcheck.geometry.jumpfield import jump_fields
+from tests.fixtures.surfaces import extruded_profile
 
 
 def fillet(vertices: int):

@@ -12,10 +12,10 @@ import time
 import numpy as np
 import trimesh
 
-from surfcheck.demo import EDGE, SCAN_MOTION, housing_part, scanned_part
-from surfcheck.segment import segment_part
-from surfcheck.transfer import MAX_SAMPLES, Target, sample_vertices, align, coarse_pose, transfer_groups
-from tests.synthetic_parts import boss_on_plate, bracket, housing, scanned
+from surfcheck.demo.scenario import EDGE, SCAN_MOTION, housing_part, scanned_part
+from surfcheck.segmentation.segment import segment_part
+from surfcheck.segmentation.transfer import MAX_SAMPLES, Target, sample_vertices, align, coarse_pose, transfer_groups
+from tests.fixtures.synthetic_parts import boss_on_plate, bracket, housing, scanned
 
 NOISE = 0.02
 

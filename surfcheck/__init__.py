@@ -1,9 +1,9 @@
 """surfcheck: grade the G0-G3 continuity of seams on triangle meshes and build blend patches."""
 
-__version__ = "0.1.0"
+from surfcheck.version import __version__
 
-from surfcheck.continuity import SeamGrade, grade_seam
-from surfcheck.differential import (
+from surfcheck.grading.continuity import SeamGrade, grade_seam
+from surfcheck.geometry.differential import (
     Curvature,
     gaussian_curvature,
     mean_curvature,
@@ -12,11 +12,11 @@ from surfcheck.differential import (
 )
 from surfcheck.errors import InputError, SurfcheckError
 from surfcheck.io import load_part, read_part, save_part
-from surfcheck.jumpfield import curvature_jump_field, tangent_jump_field
+from surfcheck.geometry.jumpfield import curvature_jump_field, tangent_jump_field
 from surfcheck.part import Part
 from surfcheck.seams import Curve, SeamIndex
-from surfcheck.steps import partition_of_unity, smooth_step
-from surfcheck.tolerances import ToleranceProfile, load_profile
+from surfcheck.blend.steps import partition_of_unity, smooth_step
+from surfcheck.grading.tolerances import ToleranceProfile, load_profile
 
 __all__ = [
     "Curvature", "Curve", "InputError", "Part", "SeamGrade", "SeamIndex", "SurfcheckError", "ToleranceProfile",

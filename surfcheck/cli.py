@@ -14,10 +14,10 @@ from rich.console import Console
 from rich.table import Table
 
 from surfcheck.errors import InputError, SurfcheckError
-from surfcheck.results import CAUTION
+from surfcheck.grading.document import CAUTION
 from surfcheck.io import read_part
 from surfcheck.seams import SeamIndex
-from surfcheck.selection import select_seams
+from surfcheck.grading.selection import select_seams
 from surfcheck.summary import part_summary
 
 app = typer.Typer(
@@ -160,14 +160,14 @@ def grade(
 
     On a scan without groups, `--seam auto` segments it into faces and fillets first, and `--nominal`
     labels it from a grouped nominal part."""
-    from surfcheck.continuity import grade_seam
-    from surfcheck.results import grade_document, parse_requirement
-    from surfcheck.tolerances import load_profile
+    from surfcheck.grading.continuity import grade_seam
+    from surfcheck.grading.document import grade_document, parse_requirement
+    from surfcheck.grading.tolerances import load_profile
 
     required = parse_requirement(require)
     profile = load_profile(tolerance)
     if report_dir is not None:
-        from surfcheck.report import check_folder, write_report
+        from surfcheck.review.folder import check_folder, write_report
 
         check_folder(report_dir)
     loaded = read_part(part, units=units)
@@ -223,10 +223,10 @@ def blend(
     as_json: bool = JSON_OPT,
 ) -> None:
     """Build a blend patch of order K between two boundary chains and grade its two new seams."""
-    from surfcheck.blend import build_blend, merge_with_patch, patch_part, prove_blend
+    from surfcheck.blend.patch import build_blend, merge_with_patch, patch_part, prove_blend
     from surfcheck.io import save_part
-    from surfcheck.results import grade_document
-    from surfcheck.tolerances import load_profile
+    from surfcheck.grading.document import grade_document
+    from surfcheck.grading.tolerances import load_profile
 
     if len(parts) not in (1, 2):
         raise InputError("blend takes PART, or PART_A PART_B")
@@ -270,7 +270,7 @@ def segment(
     """Split an unlabelled part (a scan) into faces (plane, cylinder, sphere, cone, torus, freeform)
     and fillet bands, and write it with those groups."""
     from surfcheck.io import save_part
-    from surfcheck.segment import segment_part
+    from surfcheck.segmentation.segment import segment_part
 
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
@@ -323,7 +323,7 @@ def transfer(
     """Align a scan to its nominal part (principal axes, then ICP) and give each scan triangle the group
     of the nearest nominal triangle."""
     from surfcheck.io import save_part
-    from surfcheck.transfer import align, transfer_groups
+    from surfcheck.segmentation.transfer import align, transfer_groups
 
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
@@ -368,7 +368,7 @@ def map_field(
     units: str = UNITS_OPT,
 ) -> None:
     """Write a per-vertex field of a part as PLY, CSV or a PNG heatmap."""
-    from surfcheck.fields import vertex_field
+    from surfcheck.geometry.fields import vertex_field
     from surfcheck.io import save_vertex_field
 
     suffix = out_file.suffix.lower()
@@ -377,7 +377,7 @@ def map_field(
     loaded = read_part(part, units=units)
     field = vertex_field(loaded.part, quantity)
     if suffix == ".png":
-        from surfcheck.render import render_field
+        from surfcheck.review.render import render_field
 
         render_field(loaded.part.vertices, loaded.part.faces, field.values, out_file, quantity=quantity,
                      unit=field.unit, signed=field.signed, title=f"{field.description}: {part.name}")
@@ -391,7 +391,7 @@ def map_field(
 @app.command()
 def demo(out: Path = typer.Option(Path("surfcheck-demo"), "--out", help="Folder for the sample parts and results.")) -> None:
     """Build the sample parts of the demo scenario and run every command on them."""
-    from surfcheck.demo import run_demo
+    from surfcheck.demo.scenario import run_demo
 
     if out.exists() and not out.is_dir():
         raise InputError(f"{out}: exists and is not a folder; give another --out")

@@ -12,11 +12,11 @@ from __future__ import annotations
 
 import pytest
 
-from surfcheck import shapes as S
-from surfcheck.advice import advise
-from surfcheck.continuity import grade_seam
-from surfcheck.tolerances import GENERAL, ToleranceProfile
-from tests.synthetic import RADIUS, build, part_and_seams
+from surfcheck.demo.scenario import shapes as S
+from surfcheck.grading.advice import advise
+from surfcheck.grading.continuity import grade_seam
+from surfcheck.grading.tolerances import GENERAL, ToleranceProfile
+from tests.fixtures.synthetic import RADIUS, build, part_and_seams
 
 
 def advice_for(kind: str, profile=GENERAL, noise: float = 0.0):

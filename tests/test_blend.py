@@ -13,16 +13,16 @@ import numpy as np
 import pytest
 import trimesh
 
-from tests.blend_fixtures import CASES, Revolved, achieved_order, corner_b, offset_b, pair, plane_a
-from surfcheck.blend import build_blend, default_spans, merge_with_patch
-from surfcheck.blend_checks import crossing_pairs
-from surfcheck.blend_correspondence import match_chains, point_at
-from surfcheck.blend_extension import boundary_extension
-from surfcheck.blend_mesh import zip_rows
+from tests.fixtures.blend_fixtures import CASES, Revolved, achieved_order, corner_b, offset_b, pair, plane_a
+from surfcheck.blend.patch import build_blend, default_spans, merge_with_patch
+from surfcheck.blend.checks import crossing_pairs
+from surfcheck.blend.correspondence import match_chains, point_at
+from surfcheck.blend.extension import boundary_extension
+from surfcheck.blend.mesh import zip_rows
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
-from surfcheck.steps import smooth_step
+from surfcheck.blend.steps import smooth_step
 
 @pytest.mark.parametrize("case", sorted(CASES))
 @pytest.mark.parametrize("order", [1, 2, 3])
@@ -101,7 +101,7 @@ def test_default_spans_reach_the_corner_open_a_u_turn_and_follow_a_step():
     # Geometry of the rule (docs/blend.md), exact by construction: symmetric 90-degree corner with legs
     # 3 -> spans 3; U-turn between parallel plates 4 apart facing the same way -> span = gap * sin^2(90)
     # = 4; offset step of run 5 -> span 5.
-    from surfcheck.blend_extension import Extension
+    from surfcheck.blend.extension import Extension
 
     def ext(p, D):
         return Extension(np.array([p], float), np.array([D], float), np.array([[0.0, 0.0, 1.0]]), np.zeros((1, 0)))
@@ -236,7 +236,7 @@ def test_a_gap_too_short_for_its_turn_is_reported_with_its_reason():
 def test_folded_faces_are_found():
     # Two triangles on an edge at a dihedral angle of 120 degrees between normals fold over; at 60
     # they do not (exact geometry).
-    from surfcheck.blend_checks import folded_faces
+    from surfcheck.blend.checks import folded_faces
 
     for angle, expected in ((120.0, 2), (60.0, 0)):
         c, s_ = np.cos(np.radians(angle)), np.sin(np.radians(angle))

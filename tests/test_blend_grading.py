@@ -9,10 +9,10 @@ from __future__ import annotations
 
 import pytest
 
-from tests.blend_fixtures import GRADED_CASES, achieved_order, pair
-from surfcheck.blend import build_blend, merge_with_patch
-from surfcheck.continuity import grade_seam
-from surfcheck.tolerances import load_profile
+from tests.fixtures.blend_fixtures import GRADED_CASES, achieved_order, pair
+from surfcheck.blend.patch import build_blend, merge_with_patch
+from surfcheck.grading.continuity import grade_seam
+from surfcheck.grading.tolerances import load_profile
 
 PROFILE = load_profile("general")
 

@@ -16,15 +16,15 @@ import jsonschema
 import numpy as np
 import pytest
 
-from surfcheck import shapes as S
-from surfcheck.continuity import decide, grade_seam
+from surfcheck.demo.scenario import shapes as S
+from surfcheck.grading.continuity import decide, grade_seam
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import SeamIndex
-from surfcheck.tolerances import GENERAL, SCAN
-from tests.blend_parts import blend_part
-from tests.grade_schema import seam_grade_schema
-from tests.synthetic import RADIUS, RAMP, build, knee_beside_line, part_and_seams
+from surfcheck.grading.tolerances import GENERAL, SCAN
+from tests.fixtures.blend_parts import blend_part
+from tests.fixtures.grade_schema import seam_grade_schema
+from tests.fixtures.synthetic import RADIUS, RAMP, build, knee_beside_line, part_and_seams
 
 EXPECTED = {"sharp": 0, "arc": 1, "clothoid": 2, "smoothstep": 3}  # designed class of every seam
 NOISE = 0.01  # mm, a scanner's order on millimetre-scale fillets (issue 4)

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import numpy as np
 
-from surfcheck.demo import DESIGNED, write_samples
+from surfcheck.demo.scenario import DESIGNED, write_samples
 from surfcheck.io import load_part
 from surfcheck.seams import SeamIndex
 
@@ -33,12 +33,12 @@ def test_grouped_samples_have_every_designed_seam():
 
 
 def test_nominal_sample_grades_as_built():
-    # Reference: the class each seam was built to (surfcheck.demo.DESIGNED): a heading jump is G0, a
+    # Reference: the class each seam was built to (surfcheck.demo.scenario.DESIGNED): a heading jump is G0, a
     # line into a circular arc G1 (curvature 0 -> 1/r, a handbook fact), a clothoid G2 (curvature
     # linear in arc length, the Euler spiral), a cubic smooth-step curvature ramp G3 (its derivative
     # vanishes at both ends: Hermite smoothstep, Ebert et al., Texturing and Modeling).
-    from surfcheck.continuity import grade_seam
-    from surfcheck.tolerances import load_profile
+    from surfcheck.grading.continuity import grade_seam
+    from surfcheck.grading.tolerances import load_profile
 
     part = load_part(SAMPLES / "housing.obj")
     profile = load_profile("general")
@@ -51,9 +51,9 @@ def test_gap_blends_grade_their_order_on_the_merged_part():
     # gap, and grading the merged part confirms the order). A patch of order K meets both sides with
     # G^K contact by construction (smooth step flat to order K, K-jet extensions: docs/blend.md);
     # graded with the general profile (common practice, from memory) at the default resolution.
-    from surfcheck.blend import build_blend, merge_with_patch, prove_blend
-    from surfcheck.demo import gap_chains
-    from surfcheck.tolerances import load_profile
+    from surfcheck.blend.patch import build_blend, merge_with_patch, prove_blend
+    from surfcheck.demo.scenario import gap_chains
+    from surfcheck.grading.tolerances import load_profile
 
     part = load_part(SAMPLES / "housing-gap.obj")
     chain_a, chain_b = gap_chains(part)

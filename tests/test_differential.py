@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 import pyvista as pv
 
-from surfcheck.differential import (
+from surfcheck.geometry.differential import (
     angle_defect,
     boundary_vertices,
     default_radius,
@@ -26,8 +26,8 @@ from surfcheck.differential import (
     vertex_normals,
 )
 from surfcheck.errors import InputError
-from surfcheck.jetkernel import quadric_power_sums
-from tests.surfaces import cylinder, sphere, torus
+from surfcheck.geometry.jetkernel import quadric_power_sums
+from tests.fixtures.surfaces import cylinder, sphere, torus
 
 R_TORUS, r_TORUS = 3.0, 1.0
 

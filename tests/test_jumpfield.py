@@ -11,10 +11,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from surfcheck.differential import vertex_normals
+from surfcheck.geometry.differential import vertex_normals
 from surfcheck.errors import InputError
-from surfcheck.jumpfield import curvature_jump_field, jump_fields, tangent_jump_field
-from tests.surfaces import extruded_profile, random_rotation, smooth_step
+from surfcheck.geometry.jumpfield import curvature_jump_field, jump_fields, tangent_jump_field
+from tests.fixtures.surfaces import extruded_profile, random_rotation, smooth_step
 
 r = 1.0  # fillet radius
 FLAT = 2.0  # length of each plane beside the blend
@@ -124,9 +124,9 @@ def test_bad_arguments_are_input_errors():
 
 
 def test_vertex_field_names_and_units():
-    from surfcheck.fields import QUANTITIES
-    from surfcheck.fields import field_values as vertex_field
-    from tests.surfaces import sphere
+    from surfcheck.geometry.fields import QUANTITIES
+    from surfcheck.geometry.fields import field_values as vertex_field
+    from tests.fixtures.surfaces import sphere
 
     s = sphere(2.0, 4)
     for quantity in QUANTITIES:

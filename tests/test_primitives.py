@@ -7,7 +7,7 @@ import pytest
 from scipy.spatial.transform import Rotation
 
 from surfcheck.errors import InputError
-from surfcheck.primitives import (
+from surfcheck.geometry.primitives import (
     fit_circle_2d,
     fit_cone,
     fit_cylinder,

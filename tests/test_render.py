@@ -9,11 +9,11 @@ import pytest
 from PIL import Image
 from scipy.spatial import cKDTree
 
-from surfcheck.fields import vertex_field
-from surfcheck.report import without_boundary_band
-from surfcheck.render import SeamOverlay, overview_views, render_field, seam_views
+from surfcheck.geometry.fields import vertex_field
+from surfcheck.review.folder import without_boundary_band
+from surfcheck.review.render import SeamOverlay, overview_views, render_field, seam_views
 from surfcheck.seams import SeamIndex
-from tests.blend_parts import DEPTH, EDGE, R, blend_mesh, blend_part
+from tests.fixtures.blend_parts import DEPTH, EDGE, R, blend_mesh, blend_part
 
 
 def pixels(path) -> np.ndarray:

@@ -20,14 +20,14 @@ import numpy as np
 import pytest
 from PIL import Image
 
-from surfcheck.continuity import grade_seam
+from surfcheck.grading.continuity import grade_seam
 from surfcheck.io import save_part
-from surfcheck.report import write_report
-from surfcheck.results import grade_document
+from surfcheck.review.folder import write_report
+from surfcheck.grading.document import grade_document
 from surfcheck.seams import SeamIndex
-from surfcheck.tolerances import load_profile
-from tests.blend_parts import blend_part
-from tests.grade_schema import grade_document_schema
+from surfcheck.grading.tolerances import load_profile
+from tests.fixtures.blend_parts import blend_part
+from tests.fixtures.grade_schema import grade_document_schema
 
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if os.path.exists("/usr/bin/chromium") else None)
 STATIONS = 3
@@ -173,7 +173,7 @@ def test_report_into_a_file_is_a_one_line_error(tmp_path):
 
 
 def test_report_of_a_scan_through_its_nominal_names_the_nominal_groups(tmp_path):
-    # the demo's scan (no groups) and its nominal part (surfcheck.demo): the review grades the seam the
+    # the demo's scan (no groups) and its nominal part (surfcheck.demo.scenario): the review grades the seam the
     # user named by the nominal's group names, and records the alignment it used
     samples = Path(__file__).resolve().parents[1] / "sample_meshes"
     out = tmp_path / "review"

@@ -11,8 +11,8 @@ import pytest
 
 from surfcheck.errors import InputError
 from surfcheck.part import Part
-from surfcheck.segment import segment_part
-from tests.synthetic_parts import boss_on_plate, bracket, housing, knob, scanned
+from surfcheck.segmentation.segment import segment_part
+from tests.fixtures.synthetic_parts import boss_on_plate, bracket, housing, knob, scanned
 
 NOISE = 0.02  # mm along the normal: a good structured-light scanner (from memory)
 
@@ -157,7 +157,7 @@ def test_a_triangle_soup_is_refused_with_a_clear_message():
 
 
 def test_seams_of_segmentation_are_face_fillet_pairs(bracket_case):
-    from surfcheck.segment import seams_of_segmentation
+    from surfcheck.segmentation.segment import seams_of_segmentation
 
     _, _, seg = bracket_case
     seams = seams_of_segmentation(seg)
@@ -170,7 +170,7 @@ def test_seams_of_segmentation_are_face_fillet_pairs(bracket_case):
 
 
 def test_no_seams_found_is_a_clear_error():
-    from surfcheck.segment import seams_of_segmentation
+    from surfcheck.segmentation.segment import seams_of_segmentation
 
     V, F = grid()
     seg = segment_part(Part(V, F, np.zeros(len(F), dtype=np.int64), ("scan",), source="plate.stl"))

@@ -1,11 +1,11 @@
 """Segmentation of the demo's scanned sample part (sample_meshes/housing-scan.stl): its automatic
 seams are the seams the part was built with, and grade as the nominal's do.
 
-Expected values come from the demo's design (surfcheck.demo): the profile's pieces and the face group
+Expected values come from the demo's design (surfcheck.demo.scenario): the profile's pieces and the face group
 each belongs to (GROUP_OF_PIECE: three blends, the R6 edge fillet and the two spiral-arc-spiral blends,
 each of whose three pieces is one group) and the class each seam is built to (DESIGNED). The true group
 of each scan triangle is the generator's own label: the scan is the same profile sampled with its own
-triangulation (surfcheck.demo.scanned_part) before noise and motion. The 95 % area share is the
+triangulation (surfcheck.demo.scenario.scanned_part) before noise and motion. The 95 % area share is the
 segmentation issue's requirement (common practice for inspection software, no published source).
 """
 
@@ -14,11 +14,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from surfcheck.continuity import grade_seam
-from surfcheck.demo import DESIGNED, EDGE, GROUP_OF_PIECE, SCAN_MOTION, SCAN_NOISE, housing_part
+from surfcheck.grading.continuity import grade_seam
+from surfcheck.demo.scenario import DESIGNED, EDGE, GROUP_OF_PIECE, SCAN_MOTION, SCAN_NOISE, housing_part
 from surfcheck.io import load_part
-from surfcheck.selection import select_seams
-from surfcheck.tolerances import load_profile
+from surfcheck.grading.selection import select_seams
+from surfcheck.grading.tolerances import load_profile
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_meshes"
 # demo.housing_profile: the circular edge fillet and the two spiral-arc-spiral blends

@@ -9,7 +9,7 @@ import scipy.special
 import sympy as sp
 
 from surfcheck.errors import InputError
-from surfcheck.steps import KINDS, partition_of_unity, smooth_step, smoothness
+from surfcheck.blend.steps import KINDS, partition_of_unity, smooth_step, smoothness
 
 X = sp.Symbol("x", positive=True)
 INTERIOR = np.concatenate([[1e-3, 0.01, 0.05], np.linspace(0.08, 0.92, 29), [0.95, 0.99, 0.999]])

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from surfcheck.errors import InputError
-from surfcheck.tolerances import GENERAL, PROFILES, SCAN, STYLING, load_profile
+from surfcheck.grading.tolerances import GENERAL, PROFILES, SCAN, STYLING, load_profile
 
 
 def test_named_profiles_state_their_origin_and_order():

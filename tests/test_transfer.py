@@ -8,8 +8,8 @@ import pytest
 
 from surfcheck.errors import InputError
 from surfcheck.part import Part
-from surfcheck.transfer import align, transfer_groups
-from tests.synthetic_parts import bracket, housing, scanned
+from surfcheck.segmentation.transfer import align, transfer_groups
+from tests.fixtures.synthetic_parts import bracket, housing, scanned
 
 NOISE = 0.02
 
@@ -42,7 +42,7 @@ def test_scan_is_aligned_back_and_every_face_gets_its_group(make, seed):
 def test_demo_scan_gets_exactly_the_nominal_groups():
     """The demo's scanned housing (its own staggered triangulation, noise, scanner motion) was sampled
     from the same profile with groups, so each scan triangle's true group is known by construction."""
-    from surfcheck.demo import EDGE, SCAN_NOISE, housing_part, scanned_part
+    from surfcheck.demo.scenario import EDGE, SCAN_NOISE, housing_part, scanned_part
 
     nominal, scan = housing_part(), scanned_part()
     truth = housing_part(edge=0.9 * EDGE, skew=0.3)  # the scan's triangulation before noise and motion
@@ -69,16 +69,16 @@ def test_a_nominal_without_groups_is_refused():
 
 
 def test_grading_a_scan_through_the_nominal_groups_matches_the_clean_nominal():
-    """The demo housing (surfcheck.demo: seams built G0, G1, G2 and G3) and a scan of it made with the
+    """The demo housing (surfcheck.demo.scenario: seams built G0, G1, G2 and G3) and a scan of it made with the
     demo's own noise and scanner motion: each seam's per-order status on the scan labelled by transfer
     equals the clean nominal's, for every order both resolve (the grader says "not resolved" where
     the noise hides an order; that is not a disagreement). Reference: the clean nominal graded by the
-    same estimator (surfcheck.continuity)."""
-    from surfcheck.continuity import grade_seam
-    from surfcheck.demo import SCAN_MOTION, SCAN_NOISE, housing_part
+    same estimator (surfcheck.grading.continuity)."""
+    from surfcheck.grading.continuity import grade_seam
+    from surfcheck.demo.scenario import SCAN_MOTION, SCAN_NOISE, housing_part
     from surfcheck.seams import group_seams
-    from surfcheck.shapes import add_normal_noise
-    from surfcheck.tolerances import load_profile
+    from surfcheck.demo.shapes import add_normal_noise
+    from surfcheck.grading.tolerances import load_profile
 
     nominal = housing_part(edge=0.7)
     rotation, shift = SCAN_MOTION

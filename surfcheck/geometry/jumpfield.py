@@ -1,6 +1,6 @@
 """Jump fields: where the curvature (G2) or the normal direction (G1) breaks, over the whole part.
 
-At each vertex the neighbourhood of the jet fit (surfcheck.differential) is cut by a few lines through
+At each vertex the neighbourhood of the jet fit (surfcheck.geometry.differential) is cut by a few lines through
 the vertex in its tangent plane, the first along the direction of maximum curvature. Each half is
 fitted on its own (only that side's data), with a height polynomial that is quadratic and, in the
 direction across the cut, cubic, so a curvature that merely ramps is extrapolated to the vertex instead
@@ -20,9 +20,9 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
-from surfcheck.differential import MAX_RADIUS, fitted_radius, jet_grid
+from surfcheck.geometry.differential import MAX_RADIUS, fitted_radius, jet_grid
 from surfcheck.errors import InputError
-from surfcheck.jetkernel import (
+from surfcheck.geometry.jetkernel import (
     add_monomials,
     exponent_arrays,
     fit_local_jet,
@@ -31,7 +31,7 @@ from surfcheck.jetkernel import (
     solve_normal_equations,
     tangent_frame,
 )
-from surfcheck.neighbours import check_radius, local_neighbours, neighbour_work
+from surfcheck.geometry.neighbours import check_radius, local_neighbours, neighbour_work
 
 JUMP_RADIUS = 1.5  # jump fits use this many times the curvature radius: each half holds half the points
 ON_CUT = 1e-9  # points this close to the cut line (in radius units) belong to both halves
@@ -147,7 +147,7 @@ def jump_fields(
     """Curvature-jump and tangent-jump fields at every vertex (see the module docstring).
 
     ``radius`` is the neighbourhood radius in part units (None: JUMP_RADIUS times the default jet
-    radius of surfcheck.differential.default_radius, at most MAX_RADIUS mean edge lengths);
+    radius of surfcheck.geometry.differential.default_radius, at most MAX_RADIUS mean edge lengths);
     ``directions`` the number of cut lines, evenly spaced over 180 degrees from the direction of
     maximum curvature; ``degree`` the half fits' degree across the cut. One compiled pass over the
     vertices (_jump_kernel) on the column grid of the jet fits.

@@ -14,8 +14,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from surfcheck import sidefit
-from surfcheck.sections import Section
+from surfcheck.grading import sidefit
+from surfcheck.grading.sections import Section
 
 SEARCH_EDGES = 2.0  # the transition search spans +-2 edge lengths
 SEARCH_STEP_EDGES = 0.25

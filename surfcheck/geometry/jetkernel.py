@@ -6,7 +6,7 @@ differential quantities using polynomial fitting of osculating jets"). The norma
 assembled from the power sums sum w x^a y^b and sum w z x^a y^b (add_monomials, once per point) and
 solved by Cholesky in place (solve_normal_equations); fit_local_jet does both for a vertex's
 neighbours and graph_shape gives the curvatures of the fitted graph. The kernels of
-surfcheck.differential and surfcheck.jumpfield are built from these; fit_height runs them over rows
+surfcheck.geometry.differential and surfcheck.geometry.jumpfield are built from these; fit_height runs them over rows
 of given points. Coordinates should be scaled to about unit size.
 """
 

@@ -17,18 +17,18 @@ from pathlib import Path
 
 import numpy as np
 
-from surfcheck import __version__
-from surfcheck.continuity import ORDERS, SeamGrade
+from surfcheck.version import __version__
+from surfcheck.grading.continuity import ORDERS, SeamGrade
 from surfcheck.errors import InputError
-from surfcheck.fields import VertexField, vertex_fields
+from surfcheck.geometry.fields import VertexField, vertex_fields
 from surfcheck.io import LoadResult, write_atomic
-from surfcheck.page import Picture, review_page
+from surfcheck.review.page import Picture, review_page
 from surfcheck.part import Part
-from surfcheck.results import grade_document
+from surfcheck.grading.document import grade_document
 from surfcheck.seams import Curve, SeamIndex
-from surfcheck.sections import cut_sections
+from surfcheck.grading.sections import cut_sections
 from surfcheck.summary import part_summary
-from surfcheck.tolerances import ToleranceProfile
+from surfcheck.grading.tolerances import ToleranceProfile
 
 PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
 SEAM_QUANTITY = "jump"  # the field under each seam's picture
@@ -54,7 +54,7 @@ def shown_order(grade: SeamGrade, required: int | None) -> int:
 
 def seam_overlay(curve: Curve, grade: SeamGrade, upto: int):
     """The seam as drawn: each polyline point takes the result of its nearest station along the seam."""
-    from surfcheck.render import SeamOverlay
+    from surfcheck.review.render import SeamOverlay
 
     statuses = station_statuses(grade, upto)
     pts = np.vstack([curve.points, curve.points[:1]]) if curve.closed else curve.points
@@ -87,7 +87,7 @@ def _near(V: np.ndarray, points: np.ndarray, radius: float) -> np.ndarray:
 def without_boundary_band(part: Part, field: VertexField) -> VertexField:
     """The field with NaN (drawn grey: no value) at the vertices within its fits' radius of an open
     boundary: there a one-sided fit across a cut runs out of data and its jump means nothing."""
-    from surfcheck.differential import boundary_vertices
+    from surfcheck.geometry.differential import boundary_vertices
 
     edge = part.vertices[boundary_vertices(part.faces, part.n_vertices)]
     band = _near(part.vertices, edge, field.radius) if np.isfinite(field.radius) else np.zeros(part.n_vertices, bool)
@@ -161,9 +161,9 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
     place the plotted stations as they placed the graded ones); ``summary`` is summary.part_summary
     of the loaded part (made from the part alone when not given). Returns the page's path.
     """
-    from surfcheck.differential import principal_curvatures
-    from surfcheck.plots import plot_along_seam, plot_profiles
-    from surfcheck.render import colour_limits, limits_text, overview_views, render_field, seam_views
+    from surfcheck.geometry.differential import principal_curvatures
+    from surfcheck.review.plots import plot_along_seam, plot_profiles
+    from surfcheck.review.render import colour_limits, limits_text, overview_views, render_field, seam_views
 
     out = check_folder(out_dir)
     out.mkdir(parents=True, exist_ok=True)

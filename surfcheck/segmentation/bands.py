@@ -12,9 +12,9 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
-from surfcheck.fillets import stations_along
-from surfcheck.primitives import Primitive
-from surfcheck.regions import ScanMesh, nearby_labels
+from surfcheck.segmentation.fillets import stations_along
+from surfcheck.geometry.primitives import Primitive
+from surfcheck.segmentation.regions import ScanMesh, nearby_labels
 
 BAND_ACROSS = 0.5  # band piece: median |border tangent . steepest direction| under this
 TANGENT_DEG = 12.0  # band piece: median angle between the normals across its borders under this

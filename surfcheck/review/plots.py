@@ -18,9 +18,9 @@ from pathlib import Path
 
 import numpy as np
 
-from surfcheck.continuity import ORDERS, UNITS, SeamGrade, SideEstimate, StationResult, fit_sides
-from surfcheck.render import STATUS_COLOURS, STATUS_TEXT
-from surfcheck.sections import Section
+from surfcheck.grading.continuity import ORDERS, UNITS, SeamGrade, SideEstimate, StationResult, fit_sides
+from surfcheck.review.render import STATUS_COLOURS, STATUS_TEXT
+from surfcheck.grading.sections import Section
 
 SIDE_COLOURS = ("#3a6fb0", "#e08a1e")  # side A, side B
 MODEL_SAMPLES = 200

@@ -3,9 +3,9 @@
 Principal curvatures come from a local polynomial ("jet") fit of the surface as a height function over
 the tangent plane (Cazals and Pouget 2003, "Estimating differential quantities using polynomial fitting
 of osculating jets"; Goldfeather and Interrante 2004), over a metric neighbourhood. The whole-mesh
-fit runs in a compiled kernel (numba): neighbours from a column grid (surfcheck.neighbours), the
+fit runs in a compiled kernel (numba): neighbours from a column grid (surfcheck.geometry.neighbours), the
 least-squares normal equations assembled from power sums of the neighbours' local coordinates and
-solved by Cholesky per vertex (surfcheck.jetkernel), the 2x2 shape operator diagonalised in closed
+solved by Cholesky per vertex (surfcheck.geometry.jetkernel), the 2x2 shape operator diagonalised in closed
 form. Mean and Gaussian curvature are also offered from the cotangent Laplacian and the angle defect
 (Meyer, Desbrun, Schroder and Barr 2003).
 
@@ -22,8 +22,8 @@ import numba
 import numpy as np
 
 from surfcheck.errors import InputError
-from surfcheck.jetkernel import exponent_arrays, fit_local_jet, graph_shape, jet_exponents, tangent_frame
-from surfcheck.neighbours import ColumnGrid, check_radius, local_neighbours, neighbour_work
+from surfcheck.geometry.jetkernel import exponent_arrays, fit_local_jet, graph_shape, jet_exponents, tangent_frame
+from surfcheck.geometry.neighbours import ColumnGrid, check_radius, local_neighbours, neighbour_work
 from surfcheck.part import edge_table
 
 PILOT_SAMPLE = 4000  # vertices of the pilot fits that choose the default radius
@@ -164,8 +164,8 @@ class Curvature:
 
 
 # ---------------------------------------------------------------------------------------------------
-# The compiled jet fit: per vertex, the neighbours of the column grid (surfcheck.neighbours) in the
-# local frame, the normal equations of the jet accumulated and solved in place (surfcheck.jetkernel),
+# The compiled jet fit: per vertex, the neighbours of the column grid (surfcheck.geometry.neighbours) in the
+# local frame, the normal equations of the jet accumulated and solved in place (surfcheck.geometry.jetkernel),
 # parallel over vertices.
 
 

@@ -18,15 +18,15 @@ from math import comb
 
 import numpy as np
 
-from surfcheck.blend_checks import crossing_pairs, folded_faces
-from surfcheck.blend_correspondence import ChainMap, arc_parameters, match_chains
-from surfcheck.blend_extension import Extension, boundary_extension
-from surfcheck.blend_mesh import grid_triangles, zip_rows
-from surfcheck.blend_weld import boundary_direction, weld
+from surfcheck.blend.checks import crossing_pairs, folded_faces
+from surfcheck.blend.correspondence import ChainMap, arc_parameters, match_chains
+from surfcheck.blend.extension import Extension, boundary_extension
+from surfcheck.blend.mesh import grid_triangles, zip_rows
+from surfcheck.blend.weld import boundary_direction, weld
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
-from surfcheck.steps import KINDS, smooth_step
+from surfcheck.blend.steps import KINDS, smooth_step
 
 MAX_ORDER = 3  # the extensions carry tangent, curvature and curvature rate
 FINE_T = 257  # samples per column for the cross arc length
@@ -336,7 +336,7 @@ def _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_
 
 def prove_blend(merged: MergedBlend, profile) -> list:
     """Grade the patch's two new seams with the continuity estimator: the evidence of its order."""
-    from surfcheck.continuity import grade_seam
+    from surfcheck.grading.continuity import grade_seam
 
     return [grade_seam(merged.part, seam, profile.in_units(merged.part.units)) for seam in (merged.seam_a, merged.seam_b)]
 

@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from surfcheck.errors import InputError
-from surfcheck.steps import hermite_polynomial, smooth_step
+from surfcheck.blend.steps import hermite_polynomial, smooth_step
 
 _GAUSS_NODES, _GAUSS_WEIGHTS = np.polynomial.legendre.leggauss(16)
 _MAX_TURN_PER_PANEL = 0.02  # radians of heading change per quadrature panel: error at rounding level

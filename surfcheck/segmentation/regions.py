@@ -1,6 +1,6 @@
 """Primitive regions of an unlabelled mesh: the stages of segmentation that grow faces.
 
-- Local shape from surfcheck.differential: jets give smoothed normals and principal curvatures; the
+- Local shape from surfcheck.geometry.differential: jets give smoothed normals and principal curvatures; the
   noise level is the median jet residual (noise_level); the normal's noise follows from least squares
   (see prepare_mesh). Every threshold is a multiple of these two.
 - Region growing from seeds in the flattest places: a primitive (plane, cylinder, sphere, cone, torus;
@@ -23,10 +23,10 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import breadth_first_order, connected_components
 from scipy.spatial import cKDTree
 
-from surfcheck.differential import Curvature, noise_level, principal_curvatures
+from surfcheck.geometry.differential import Curvature, noise_level, principal_curvatures
 from surfcheck.errors import InputError
 from surfcheck.part import Part
-from surfcheck.primitives import KINDS, Primitive, fit_simplest
+from surfcheck.geometry.primitives import KINDS, Primitive, fit_simplest
 
 SCALE_EDGES = 2.5  # neighbourhood radius in median edge lengths: about 25 vertices per jet
 DISTANCE_SIGMAS = 3.0  # a face fits a primitive if its vertices' rms distance is under 3 noise levels

@@ -2,7 +2,7 @@
 
 At each station on the seam between the band and one of its faces, the band's vertices within a slab
 normal to the seam tangent are projected into the section plane and fitted by a circle (Kasa 1976, then
-geometric least squares; surfcheck.primitives.fit_circle_2d). The outer tenth of the section on each side
+geometric least squares; surfcheck.geometry.primitives.fit_circle_2d). The outer tenth of the section on each side
 is dropped and the circle refitted, so a band edge that is off by an edge or two does not bend the
 radius. On a non-circular blend (a G2 or G3 step blend) the radius is that of the best circle and the
 section residual says how far from circular the section is.
@@ -16,7 +16,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from surfcheck.part import Part
-from surfcheck.primitives import fit_circle_2d
+from surfcheck.geometry.primitives import fit_circle_2d
 
 TRIM = 0.1  # fraction of the section's arc dropped at each end before the final circle fit
 MIN_SECTION_POINTS = 10

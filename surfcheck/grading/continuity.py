@@ -26,10 +26,10 @@ import numpy as np
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
-from surfcheck.sections import Section, cut_sections
-from surfcheck.sidefit import SideEstimate, fit_side
-from surfcheck.tolerances import ToleranceProfile
-from surfcheck.transition import find_transition, split_at
+from surfcheck.grading.sections import Section, cut_sections
+from surfcheck.grading.sidefit import SideEstimate, fit_side
+from surfcheck.grading.tolerances import ToleranceProfile
+from surfcheck.grading.transition import find_transition, split_at
 
 ORDERS = ("G0", "G1", "G2", "G3")
 UNITS = ("{u}", "deg", "1/{u}", "1/{u}^2")

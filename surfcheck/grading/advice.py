@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from surfcheck.continuity import ORDERS, UNITS, SeamGrade
+from surfcheck.grading.continuity import ORDERS, UNITS, SeamGrade
 
 DEFECTS = (
     "a gap: weld the faces or rebuild their shared edge",

@@ -1,9 +1,9 @@
 """Automatic segmentation of an unlabelled (scanned) mesh into smooth faces and fillet bands.
 
 Method (details and thresholds in docs/segmentation.md): primitive regions are grown, merged and
-refined (surfcheck.regions); curved regions that are pieces of blend bands are found and joined into
-fillet groups, whose borders with their faces are placed and straightened (surfcheck.bands); each
-fillet's radius is measured along it by cross-section circle fits (surfcheck.fillets). Groups are named
+refined (surfcheck.segmentation.regions); curved regions that are pieces of blend bands are found and joined into
+fillet groups, whose borders with their faces are placed and straightened (surfcheck.segmentation.bands); each
+fillet's radius is measured along it by cross-section circle fits (surfcheck.segmentation.fillets). Groups are named
 by kind and area: plane-1, cylinder-1, torus-1, freeform-1, fillet-1, ...
 """
 
@@ -15,12 +15,12 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from surfcheck.bands import band_pieces, refine_band_borders
+from surfcheck.segmentation.bands import band_pieces, refine_band_borders
 from surfcheck.errors import InputError
-from surfcheck.fillets import FilletRadius, measure_fillet
+from surfcheck.segmentation.fillets import FilletRadius, measure_fillet
 from surfcheck.part import Part
-from surfcheck.primitives import Primitive
-from surfcheck.regions import (compete, fit_faces, grow_regions, largest_pieces, merge_regions,
+from surfcheck.geometry.primitives import Primitive
+from surfcheck.segmentation.regions import (compete, fit_faces, grow_regions, largest_pieces, merge_regions,
                                prepare_mesh, settle_leftovers)
 from surfcheck.seams import Curve, group_seams
 

@@ -7,9 +7,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from surfcheck.differential import principal_curvatures
+from surfcheck.geometry.differential import principal_curvatures
 from surfcheck.errors import InputError
-from surfcheck.jumpfield import jump_fields
+from surfcheck.geometry.jumpfield import jump_fields
 from surfcheck.part import Part
 
 # quantity -> (unit pattern, signed, description)
@@ -58,8 +58,8 @@ def field_values(
 ) -> tuple[np.ndarray, str]:
     """The field ``quantity`` (one of QUANTITIES) at every vertex and its unit label.
 
-    k1, k2, mean and gaussian come from the jet fits (surfcheck.differential.principal_curvatures),
-    jump and tangent-jump from the one-sided fits (surfcheck.jumpfield.jump_fields). ``radius`` is the
+    k1, k2, mean and gaussian come from the jet fits (surfcheck.geometry.differential.principal_curvatures),
+    jump and tangent-jump from the one-sided fits (surfcheck.geometry.jumpfield.jump_fields). ``radius`` is the
     neighbourhood radius in part units (None: the default rule). NaN marks vertices without a value.
     """
     values, _ = _values(V, F, [quantity], radius)[quantity]

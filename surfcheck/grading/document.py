@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-from surfcheck import __version__
-from surfcheck.advice import advise
-from surfcheck.continuity import ORDERS, SeamGrade
+from surfcheck.version import __version__
+from surfcheck.grading.advice import advise
+from surfcheck.grading.continuity import ORDERS, SeamGrade
 from surfcheck.errors import InputError
 from surfcheck.part import Part
-from surfcheck.tolerances import ToleranceProfile
+from surfcheck.grading.tolerances import ToleranceProfile
 
 CAUTION = (
     "Continuity grades are geometric. Strength, stress concentration, fatigue life, sealing and safety"

@@ -12,7 +12,7 @@ profile is made to a known continuity class, so the demo shows every grade:
 The files: the part as OBJ with groups, as binary STL, as PLY with a group property, and a "scanned"
 copy (moved to a scanner's frame, normal noise of 0.01 mm, no groups), and the part with its edge
 fillet and CUT_BACK of each face beside it cut away (a gap the blend demo bridges at K = 1, 2, 3).
-Regenerate sample_meshes/ with `python -m surfcheck.demo sample_meshes`.
+Regenerate sample_meshes/ with `python -m surfcheck.demo.scenario sample_meshes`.
 """
 
 from __future__ import annotations
@@ -25,18 +25,18 @@ from pathlib import Path
 import numpy as np
 from scipy.spatial.transform import Rotation
 
-from surfcheck.blend import build_blend, merge_with_patch, prove_blend
-from surfcheck.continuity import grade_seam
+from surfcheck.blend.patch import build_blend, merge_with_patch, prove_blend
+from surfcheck.grading.continuity import grade_seam
 from surfcheck.io import read_part, save_part, write_atomic
 from surfcheck.part import Part
 from surfcheck.seams import Curve, SeamIndex
-from surfcheck.segment import seams_of_segmentation, segment_part
-from surfcheck.report import write_report
-from surfcheck.shapes import Profile, add_normal_noise, arc, clothoid, corner, extrude, line, ramp
-from surfcheck.results import CAUTION, grade_document, parse_requirement, verdict
+from surfcheck.segmentation.segment import seams_of_segmentation, segment_part
+from surfcheck.review.folder import write_report
+from surfcheck.demo.shapes import Profile, add_normal_noise, arc, clothoid, corner, extrude, line, ramp
+from surfcheck.grading.document import CAUTION, grade_document, parse_requirement, verdict
 from surfcheck.summary import part_summary
-from surfcheck.tolerances import load_profile
-from surfcheck.transfer import transfer_groups
+from surfcheck.grading.tolerances import load_profile
+from surfcheck.segmentation.transfer import transfer_groups
 
 FILLET_RADIUS = 6.0  # mm
 BLEND_SPIRAL = 6.0  # mm of curvature ramp at each end of the G2 and G3 blends

@@ -24,8 +24,8 @@ from scipy.interpolate import CubicSpline
 from scipy.sparse.csgraph import dijkstra
 from scipy.spatial import cKDTree
 
-from surfcheck.differential import vertex_normals
-from surfcheck.jetkernel import fit_height, jet_exponents
+from surfcheck.geometry.differential import vertex_normals
+from surfcheck.geometry.jetkernel import fit_height, jet_exponents
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve

@@ -24,13 +24,13 @@ def select_seams(part: Part, specs: list[str], nominal: Part | None = None) -> S
     """Resolve command-line seam specs on ``part`` (after labelling it from ``nominal`` if given)."""
     notes: dict = {}
     if nominal is not None:
-        from surfcheck.transfer import align, transfer_groups
+        from surfcheck.segmentation.transfer import align, transfer_groups
 
         alignment = align(part, nominal)
         part = transfer_groups(nominal, part, alignment)
         notes["alignment"] = alignment.to_json()
     if "auto" in specs and len(part.group_names) <= 1:
-        from surfcheck.segment import seams_of_segmentation, segment_part
+        from surfcheck.segmentation.segment import seams_of_segmentation, segment_part
 
         segmentation = segment_part(part)
         notes["segmentation"] = segmentation.to_json()

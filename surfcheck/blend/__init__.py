@@ -1,0 +1,1 @@
+"""Blend patches of a chosen order from smooth-step partitions of unity."""

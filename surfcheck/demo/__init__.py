@@ -1,0 +1,1 @@
+"""The demo scenario and the synthetic part builders it and the tests use."""

@@ -1,0 +1,1 @@
+"""What a reviewer looks at: pictures, plots and the HTML review folder."""

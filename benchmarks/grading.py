@@ -25,7 +25,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from surfcheck.demo.scenario import shapes as S  # noqa: E402
+from surfcheck.demo import shapes as S  # noqa: E402
 from surfcheck.grading.continuity import grade_seam  # noqa: E402
 from surfcheck.grading.sections import cut_sections  # noqa: E402
 from surfcheck.grading.tolerances import GENERAL, SCAN  # noqa: E402

@@ -26,8 +26,8 @@ TOUCH_RELATIVE = 0.25  # separate shells touch within this fraction of the media
 class Curve:
     """An ordered polyline on a part: a boundary loop, a boundary chain or a seam between two groups.
 
-    ``vertices`` are part vertex indices in order (for a seam between separate shells, those of the
-    first group's side); ``points`` their positions. ``groups`` names the group(s) beside it: one for a
+    ``vertices`` are part vertex indices in order (for a seam between separate shells, those of one
+    side, kept when the request names the groups the other way round); ``points`` their positions. ``groups`` names the group(s) beside it: one for a
     loop or chain, the two groups (A, B) for a seam.
     """
 

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import pytest
 
-from surfcheck.demo.scenario import shapes as S
+from surfcheck.demo import shapes as S
 from surfcheck.grading.advice import advise
 from surfcheck.grading.continuity import grade_seam
 from surfcheck.grading.tolerances import GENERAL, ToleranceProfile

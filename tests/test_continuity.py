@@ -16,7 +16,7 @@ import jsonschema
 import numpy as np
 import pytest
 
-from surfcheck.demo.scenario import shapes as S
+from surfcheck.demo import shapes as S
 from surfcheck.grading.continuity import decide, grade_seam
 from surfcheck.errors import InputError
 from surfcheck.part import Part
@@ -119,6 +119,18 @@ def test_separate_shells_grade_like_welded_ones():
     shells = grades(build("clothoid", "revolve", separate_shells=True))
     assert [g.achieved for g in shells] == welded
     assert not shells[0].welded
+
+
+def test_naming_the_sides_the_other_way_round_keeps_the_seam_separate():
+    # Separate shells (duplicate vertices on the seam) are not welded whichever group is named first;
+    # B:A must report the same "welded" and the same orders as A:B (truth by construction).
+    mesh = build("clothoid", "revolve", separate_shells=True)
+    part, _ = part_and_seams(mesh)
+    a, b = mesh.seams[0].group_a, mesh.seams[0].group_b
+    index = SeamIndex(part)
+    forward, backward = (grade_seam(part, index.find(spec)[0], GENERAL) for spec in (f"{a}:{b}", f"{b}:{a}"))
+    assert forward.welded is False and backward.welded is False
+    assert backward.achieved == forward.achieved
 
 
 def test_shell_moved_by_a_known_offset_gives_that_gap():

@@ -8,7 +8,7 @@ import trimesh
 from scipy.integrate import quad
 from scipy.special import fresnel
 
-from surfcheck.demo.scenario import shapes as S
+from surfcheck.demo import shapes as S
 from surfcheck.errors import InputError
 
 

@@ -156,7 +156,9 @@ def cut_sections(
     reach = REACH_EDGES * h if reach is None else float(reach)
     if not (np.isfinite(strip) and strip > 0 and np.isfinite(reach) and reach > 0):
         raise InputError("the strip width and the reach must be positive lengths")
-    welded = bool(np.isin(seam.vertices, ids_b).mean() > 0.5)
+    # welded: the seam's vertices are shared by both sides (a seam between separate shells lists one
+    # side's vertices, whichever side the request names first, so membership of both is the test)
+    welded = bool((np.isin(seam.vertices, ids_a) & np.isin(seam.vertices, ids_b)).mean() > 0.5)
     polyline = _SeamPolyline(seam.points, seam.closed)
     positions = station_positions(polyline.length, seam.closed, stations, spacing, 2.0 * strip)
     V = part.vertices

@@ -17,6 +17,7 @@ from scipy.spatial import cKDTree
 
 from surfcheck.errors import InputError
 from surfcheck.part import Part
+from surfcheck.polyline import polyline_length
 
 CORNER_ANGLE_DEG = 35.0  # a boundary turning more than this at a vertex starts a new chain; from memory
 TOUCH_RELATIVE = 0.25  # separate shells touch within this fraction of the median edge length; from memory
@@ -40,8 +41,7 @@ class Curve:
 
     @property
     def length(self) -> float:
-        pts = np.vstack([self.points, self.points[:1]]) if self.closed else self.points
-        return float(np.linalg.norm(np.diff(pts, axis=0), axis=1).sum())
+        return polyline_length(self.points, self.closed)
 
     def to_dict(self) -> dict:
         return {
@@ -164,7 +164,7 @@ def boundary_loops(part: Part) -> list[Curve]:
     for vertices, closed in paths:
         vertices = _orient_like(vertices, half, closed)
         found.append((vertices, closed))
-    found.sort(key=lambda item: (-_polyline_length(part.vertices[item[0]], item[1]), int(item[0].min())))
+    found.sort(key=lambda item: (-polyline_length(part.vertices[item[0]], item[1]), int(item[0].min())))
     return [
         Curve(f"loop-{i}", "loop", v, part.vertices[v], closed, groups_of(v))
         for i, (v, closed) in enumerate(found, start=1)
@@ -181,11 +181,6 @@ def _orient_like(vertices: np.ndarray, half: np.ndarray, closed: bool) -> np.nda
     if closed:
         vertices = np.roll(vertices, -int(np.argmin(vertices)))
     return vertices
-
-
-def _polyline_length(points: np.ndarray, closed: bool) -> float:
-    pts = np.vstack([points, points[:1]]) if closed else points
-    return float(np.linalg.norm(np.diff(pts, axis=0), axis=1).sum())
 
 
 def _boundary_vertex_groups(part: Part):

@@ -15,6 +15,7 @@ import numpy as np
 from scipy.optimize import minimize_scalar
 
 from surfcheck.errors import InputError
+from surfcheck.polyline import cumulative_arc_length
 
 SAMPLES = 256
 
@@ -39,8 +40,7 @@ class ChainMap:
 def arc_parameters(points: np.ndarray, closed: bool) -> np.ndarray:
     """Normalised arc length of each vertex: 0 at the first, 1 at the last (open) or at the return to
     the first (closed)."""
-    pts = np.vstack([points, points[:1]]) if closed else points
-    cumulative = np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(pts, axis=0), axis=1))])
+    cumulative = cumulative_arc_length(points, closed)
     if cumulative[-1] <= 0.0:
         raise InputError("a chain has zero length; pick a boundary chain with at least two distinct points")
     s = cumulative / cumulative[-1]

@@ -27,6 +27,7 @@ from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
 from surfcheck.blend.steps import KINDS, smooth_step
+from surfcheck.polyline import segment_lengths
 
 MAX_ORDER = 3  # the extensions carry tangent, curvature and curvature rate
 FINE_T = 257  # samples per column for the cross arc length
@@ -193,8 +194,7 @@ def _check_request(part_a, chain_a, part_b, chain_b, order, step, span, resoluti
 
 
 def _edge_lengths(chain: Curve) -> np.ndarray:
-    pts = np.vstack([chain.points, chain.points[:1]]) if chain.closed else chain.points
-    return np.linalg.norm(np.diff(pts, axis=0), axis=1)
+    return segment_lengths(chain.points, chain.closed)
 
 
 def _rows_of_equal_arc_length(samples: np.ndarray, t: np.ndarray, spacing: float) -> np.ndarray:

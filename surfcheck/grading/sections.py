@@ -24,6 +24,7 @@ from scipy.stats import f as f_dist
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
+from surfcheck.polyline import cumulative_arc_length, ring, segment_lengths
 
 STRIP_EDGES = 10.0  # default half-width of the strip along the seam, in typical edge lengths
 REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
@@ -258,9 +259,7 @@ class _SeamPolyline:
 
     def __init__(self, points: np.ndarray, closed: bool) -> None:
         self.points = np.asarray(points, dtype=float)
-        pts = np.vstack([self.points, self.points[:1]]) if closed else self.points
-        seg = np.linalg.norm(np.diff(pts, axis=0), axis=1)
-        self.arc = np.concatenate([[0.0], np.cumsum(seg)])
+        self.arc = cumulative_arc_length(self.points, closed)
         self.length = float(self.arc[-1])
         self.closed = closed
         if not self.length > 0:
@@ -318,14 +317,14 @@ class _SeamLocator:
     """Arc length of the seam point nearest to given points, from the seam sampled ``spacing`` apart."""
 
     def __init__(self, points: np.ndarray, closed: bool, spacing: float) -> None:
-        ring = np.vstack([points, points[:1]]) if closed else points
-        steps = np.linalg.norm(np.diff(ring, axis=0), axis=1)
+        closing = ring(points, closed)
+        steps = segment_lengths(points, closed)
         count = np.maximum(1, np.ceil(steps / max(spacing, 1e-300)).astype(int))
         t = np.concatenate([np.arange(c) / c for c in count] + [[1.0]])
         segment = np.concatenate([np.full(c, i) for i, c in enumerate(count)] + [[len(steps) - 1]])
         start = np.concatenate([[0.0], np.cumsum(steps)])
         self.arc = start[segment] + t * steps[segment]
-        self.tree = cKDTree(ring[segment] + t[:, None] * (ring[segment + 1] - ring[segment]))
+        self.tree = cKDTree(closing[segment] + t[:, None] * (closing[segment + 1] - closing[segment]))
         self.length = float(start[-1])
         self.closed = closed
 

@@ -29,6 +29,7 @@ from surfcheck.seams import Curve, SeamIndex
 from surfcheck.grading.sections import cut_sections
 from surfcheck.summary import part_summary
 from surfcheck.grading.tolerances import ToleranceProfile
+from surfcheck.polyline import cumulative_arc_length
 
 PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
 SEAM_QUANTITY = "jump"  # the field under each seam's picture
@@ -57,8 +58,7 @@ def seam_overlay(curve: Curve, grade: SeamGrade, upto: int):
     from surfcheck.review.render import SeamOverlay
 
     statuses = station_statuses(grade, upto)
-    pts = np.vstack([curve.points, curve.points[:1]]) if curve.closed else curve.points
-    arc = np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(pts, axis=0), axis=1))])[: len(curve.points)]
+    arc = cumulative_arc_length(curve.points, curve.closed)[: len(curve.points)]
     s = np.array([st.s for st in grade.stations])
     nearest = np.argmin(np.abs(arc[:, None] - s[None, :]), axis=1)
     points = np.vstack([curve.points, curve.points[:1]]) if curve.closed else curve.points

@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from surfcheck.grading.continuity import ORDERS, UNITS, SeamGrade, SideEstimate, StationResult, fit_sides
-from surfcheck.review.render import STATUS_COLOURS, STATUS_TEXT
+from surfcheck.review.render import STATUS_COLOURS, STATUS_TEXT, save_figure
 from surfcheck.grading.sections import Section
 
 SIDE_COLOURS = ("#3a6fb0", "#e08a1e")  # side A, side B
@@ -105,13 +105,7 @@ def _figure(width: float, height: float):
 
 
 def _save(plt, fig, path: str | os.PathLike) -> Path:
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    temporary = path.with_name(f".{path.stem}.tmp.png")
-    fig.savefig(temporary, dpi=100, facecolor="white")
-    plt.close(fig)
-    os.replace(temporary, path)
-    return path
+    return save_figure(fig, path, 100)
 
 
 def plot_profiles(grade: SeamGrade, sections: list[Section], path: str | os.PathLike, *, coverage: float,

@@ -16,9 +16,12 @@ from __future__ import annotations
 
 import os
 from dataclasses import dataclass
+from io import BytesIO
 from pathlib import Path
 
 import numpy as np
+
+from surfcheck.io import write_atomic
 
 STATUS_COLOURS = {"ok": "#1f9e89", "fail": "#d7263d", "not resolved": "#9aa0a6"}
 STATUS_TEXT = {"ok": "#137a69", "fail": "#b0172c", "not resolved": "#5f6368"}  # darker, for text
@@ -301,12 +304,36 @@ def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | o
         handles = [Patch(color=c, label=f"seam {s}") for s, c in STATUS_COLOURS.items()]
         fig.legend(handles=handles, loc="lower right", bbox_to_anchor=(1.0 - pad / width, 30 / height),
                    fontsize=12, frameon=False, title="result per station", title_fontsize=12)
+    return save_figure(fig, path, DPI)
+
+
+def save_figure(fig, path: str | os.PathLike, dpi: int) -> Path:
+    """Write a matplotlib figure as PNG through the atomic writer (a unique temporary name beside the
+    target, renamed into place; nothing half-written is left on failure) and close it.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure to write.
+    path : path-like
+        Where the PNG goes.
+    dpi : int
+        Resolution of the PNG.
+
+    Returns
+    -------
+    Path
+        ``path``.
+    """
+    import matplotlib.pyplot as plt
+
+    buffer = BytesIO()
+    try:
+        fig.savefig(buffer, format="png", dpi=dpi, facecolor="white")
+    finally:
+        plt.close(fig)
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    temporary = path.with_name(f".{path.stem}.tmp.png")
-    fig.savefig(temporary, dpi=DPI, facecolor="white")
-    plt.close(fig)
-    os.replace(temporary, path)
+    write_atomic(path, buffer.getvalue())
     return path
 
 

@@ -24,7 +24,7 @@ from scipy.stats import f as f_dist
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
-from surfcheck.polyline import cumulative_arc_length, ring, segment_lengths
+from surfcheck.polyline import cumulative_arc_length, ring
 
 STRIP_EDGES = 10.0  # default half-width of the strip along the seam, in typical edge lengths
 REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
@@ -318,11 +318,11 @@ class _SeamLocator:
 
     def __init__(self, points: np.ndarray, closed: bool, spacing: float) -> None:
         closing = ring(points, closed)
-        steps = segment_lengths(points, closed)
+        steps = np.linalg.norm(np.diff(closing, axis=0), axis=1)
+        start = np.concatenate([[0.0], np.cumsum(steps)])
         count = np.maximum(1, np.ceil(steps / max(spacing, 1e-300)).astype(int))
         t = np.concatenate([np.arange(c) / c for c in count] + [[1.0]])
         segment = np.concatenate([np.full(c, i) for i, c in enumerate(count)] + [[len(steps) - 1]])
-        start = np.concatenate([[0.0], np.cumsum(steps)])
         self.arc = start[segment] + t * steps[segment]
         self.tree = cKDTree(closing[segment] + t[:, None] * (closing[segment + 1] - closing[segment]))
         self.length = float(start[-1])

@@ -26,7 +26,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from surfcheck.demo import shapes as S  # noqa: E402
-from surfcheck.grading.continuity import grade_seam  # noqa: E402
+from surfcheck.grading.run import grade_seam  # noqa: E402
 from surfcheck.grading.sections import cut_sections  # noqa: E402
 from surfcheck.grading.tolerances import GENERAL, SCAN  # noqa: E402
 from tests.fixtures.synthetic import RADIUS, RAMP, build, fillet, part_and_seams  # noqa: E402
@@ -143,7 +143,8 @@ def demo_lip(part, seams) -> None:
     for seam_id in LIP_SEAMS:
         worst = 0.0
         for sec in cut_sections(part, seams[seam_id], 8):
-            _, _, a, b = fit_sides(sec, 0.0)
+            sides = fit_sides(sec)
+            a, b = sides.a, sides.b
             z = [abs(e.values[q]) / np.sqrt(e.variances[q]) for q in (2, 3) for e in (a, b)]
             worst = max(worst, *z)
             print(f"  {seam_id} station {sec.index}: kappa {z[0]:5.1f} / {z[1]:5.1f}  rate {z[2]:5.1f} / {z[3]:5.1f}"

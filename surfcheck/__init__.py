@@ -2,7 +2,9 @@
 
 from surfcheck.version import __version__
 
-from surfcheck.grading.continuity import SeamGrade, grade_seam
+from surfcheck.grading.continuity import SeamGrade
+from surfcheck.grading.run import GradeOptions, GradeRun, grade_part, grade_seam
+from surfcheck.grading.status import Status
 from surfcheck.geometry.differential import (
     Curvature,
     gaussian_curvature,
@@ -19,8 +21,8 @@ from surfcheck.blend.steps import partition_of_unity, smooth_step
 from surfcheck.grading.tolerances import ToleranceProfile, load_profile
 
 __all__ = [
-    "Curvature", "Curve", "InputError", "Part", "SeamGrade", "SeamIndex", "SurfcheckError", "ToleranceProfile",
-    "curvature_jump_field", "gaussian_curvature", "grade_seam", "load_part", "load_profile", "mean_curvature",
+    "Curvature", "Curve", "GradeOptions", "GradeRun", "InputError", "Part", "SeamGrade", "Status", "SeamIndex", "SurfcheckError", "ToleranceProfile",
+    "curvature_jump_field", "gaussian_curvature", "grade_part", "grade_seam", "load_part", "load_profile", "mean_curvature",
     "partition_of_unity", "principal_curvatures", "read_part", "save_part", "smooth_step", "tangent_jump_field",
     "vertex_normals",
 ]

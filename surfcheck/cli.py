@@ -104,9 +104,9 @@ def loops(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OP
 
 
 def _order_cell(order: dict) -> str:
-    if order["value"] is None:
-        return "[dim]no data[/dim]"
     colour = {"ok": "green", "fail": "red"}.get(order["status"], "yellow")
+    if order["value"] is None or order["uncertainty"] is None:
+        return f"- [{colour}]{order['status']}[/{colour}]"
     text = f"{order['value']:.3g} ± {order['uncertainty']:.2g} / {order['tolerance']:.3g}"
     return f"{text} [{colour}]{order['status']}[/{colour}]"
 
@@ -129,6 +129,8 @@ def print_grades(document: dict) -> None:
                   f" the expanded uncertainty (k = {document['tolerance']['coverage']:g})")
     for item in document["advice"]:
         console.print(f"{item['seam']}: {item['text']}")
+    for item in document.get("not_graded", []):
+        console.print(f"[yellow]not graded[/yellow] {item['id']} ({' | '.join(item['groups'])}): {item['reason']}")
     if document["require"]:
         colour = "green" if document["verdict"] == "pass" else "red"
         console.print(f"requirement {document['require']}: [{colour}]{document['verdict']}[/{colour}]")
@@ -160,8 +162,8 @@ def grade(
 
     On a scan without groups, `--seam auto` segments it into faces and fillets first, and `--nominal`
     labels it from a grouped nominal part."""
-    from surfcheck.grading.continuity import grade_seam
-    from surfcheck.grading.document import grade_document, parse_requirement
+    from surfcheck.grading.document import parse_requirement, run_document
+    from surfcheck.grading.run import GradeOptions, grade_part
     from surfcheck.grading.tolerances import load_profile
 
     required = parse_requirement(require)
@@ -173,15 +175,15 @@ def grade(
     loaded = read_part(part, units=units)
     reference = read_part(nominal, units=units).part if nominal is not None else None
     chosen = select_seams(loaded.part, list(seam), reference)
-    grades = []
-    for curve in _progress(chosen.seams, "grading seams", quiet=as_json):
-        grades.append(grade_seam(chosen.part, curve, profile.in_units(chosen.part.units), stations, spacing))
-    parameters = {"stations": stations, "spacing": spacing, "seams": list(seam),
-                  "nominal": str(nominal) if nominal else None, **chosen.notes}
-    document = grade_document(chosen.part, grades, profile, required, parameters)
+    run = grade_part(chosen.part, chosen.seams, profile, GradeOptions(stations, spacing),
+                     progress=lambda seams: _progress(seams, "grading seams", quiet=as_json))
+    if not run.grades:
+        raise InputError("; ".join(f"{s.curve.id}: {s.reason}" for s in run.not_graded))
+    parameters = {"seams": list(seam), "nominal": str(nominal) if nominal else None, **chosen.notes}
+    document = run_document(run, required, parameters)
     if report_dir is not None:
-        page = write_report(chosen.part, grades, profile, required, report_dir, parameters=parameters,
-                            summary=part_summary(loaded), quiet=as_json)
+        page = write_report(run, required, report_dir, parameters=parameters, summary=part_summary(loaded),
+                            quiet=as_json)
     if as_json:
         print_json(document)
     else:

@@ -14,7 +14,7 @@ import pytest
 
 from surfcheck.demo import shapes as S
 from surfcheck.grading.advice import advise
-from surfcheck.grading.continuity import grade_seam
+from surfcheck.grading.run import grade_seam
 from surfcheck.grading.tolerances import GENERAL, ToleranceProfile
 from tests.fixtures.synthetic import RADIUS, build, part_and_seams
 

@@ -1,4 +1,4 @@
-"""The closed loop: blend patches graded by the continuity estimator (continuity.grade_seam) with the
+"""The closed loop: blend patches graded by the continuity estimator (run.grade_seam) with the
 default profile, on the merged part, seam by seam.
 
 Each case is first checked against the exact section jets of its surfaces (blend_fixtures.achieved_order),
@@ -11,7 +11,7 @@ import pytest
 
 from tests.fixtures.blend_fixtures import GRADED_CASES, achieved_order, pair
 from surfcheck.blend.patch import build_blend, merge_with_patch
-from surfcheck.grading.continuity import grade_seam
+from surfcheck.grading.run import grade_seam
 from surfcheck.grading.tolerances import load_profile
 
 PROFILE = load_profile("general")

@@ -17,7 +17,8 @@ import numpy as np
 import pytest
 
 from surfcheck.demo import shapes as S
-from surfcheck.grading.continuity import decide, grade_seam
+from surfcheck.grading.continuity import decide
+from surfcheck.grading.run import grade_seam
 from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import SeamIndex

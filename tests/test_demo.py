@@ -37,7 +37,7 @@ def test_nominal_sample_grades_as_built():
     # line into a circular arc G1 (curvature 0 -> 1/r, a handbook fact), a clothoid G2 (curvature
     # linear in arc length, the Euler spiral), a cubic smooth-step curvature ramp G3 (its derivative
     # vanishes at both ends: Hermite smoothstep, Ebert et al., Texturing and Modeling).
-    from surfcheck.grading.continuity import grade_seam
+    from surfcheck.grading.run import grade_seam
     from surfcheck.grading.tolerances import load_profile
 
     part = load_part(SAMPLES / "housing.obj")

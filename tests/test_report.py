@@ -20,10 +20,10 @@ import numpy as np
 import pytest
 from PIL import Image
 
-from surfcheck.grading.continuity import grade_seam
+from surfcheck.grading.run import GradeOptions, grade_part
 from surfcheck.io import save_part
 from surfcheck.review.folder import write_report
-from surfcheck.grading.document import grade_document
+from surfcheck.grading.document import run_document
 from surfcheck.seams import SeamIndex
 from surfcheck.grading.tolerances import load_profile
 from tests.fixtures.blend_parts import blend_part
@@ -31,7 +31,7 @@ from tests.fixtures.grade_schema import grade_document_schema
 
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if os.path.exists("/usr/bin/chromium") else None)
 STATIONS = 3
-PARAMETERS = {"stations": STATIONS, "spacing": None, "seams": ["all"]}
+PARAMETERS = {"seams": ["all"], "nominal": None}
 
 
 def run_cli(*args: str) -> subprocess.CompletedProcess:
@@ -43,10 +43,29 @@ def review(tmp_path_factory):
     """The review of both seams of the circular fillet part, written once."""
     part = blend_part("fillet")
     profile = load_profile("general")
-    grades = [grade_seam(part, seam, profile, stations=STATIONS) for seam in SeamIndex(part).seams]
+    run = grade_part(part, SeamIndex(part).seams, profile, GradeOptions(stations=STATIONS))
     out = tmp_path_factory.mktemp("review")
-    page = write_report(part, grades, profile, 2, out, parameters=PARAMETERS, quiet=True)
-    return {"page": page, "out": out, "document": grade_document(part, grades, profile, 2, PARAMETERS)}
+    page = write_report(run, 2, out, parameters=PARAMETERS, quiet=True)
+    return {"page": page, "out": out, "document": run_document(run, 2, PARAMETERS)}
+
+
+def test_the_page_shows_the_grading_options_that_were_used(tmp_path):
+    # a wider strip and a shorter reach given to the grading reach the page and result.json, and the
+    # stations drawn are the graded ones (their count and the data points of each side)
+    part = blend_part("fillet")
+    seam = SeamIndex(part).seams[0]
+    options = GradeOptions(stations=5, strip=0.9, reach=2.5)
+    run = grade_part(part, [seam], load_profile("general"), options)
+    write_report(run, None, tmp_path, parameters=PARAMETERS, quiet=True)
+    document = json.loads((tmp_path / "result.json").read_text())
+    assert document["parameters"]["strip"] == 0.9 and document["parameters"]["reach"] == 2.5
+    graded = document["seams"][0]["station_values"]
+    assert len(graded) == 5
+    assert [s["points"] for s in graded] == [list(st.result.counts) for st in run.seams[0].stations]
+    default = grade_part(part, [seam], load_profile("general"), GradeOptions(stations=5)).seams[0]
+    assert [s["points"] for s in graded] != [list(st.result.counts) for st in default.stations]
+    page = (tmp_path / "index.html").read_text()
+    assert "<th>strip</th><td>0.9</td>" in page and "<th>reach</th><td>2.5</td>" in page
 
 
 def references(page: Path) -> list[tuple[str, str]]:

@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from surfcheck.grading.continuity import grade_seam
+from surfcheck.grading.run import grade_seam
 from surfcheck.demo.scenario import DESIGNED, EDGE, GROUP_OF_PIECE, SCAN_MOTION, SCAN_NOISE, housing_part
 from surfcheck.io import load_part
 from surfcheck.grading.selection import select_seams

@@ -74,7 +74,7 @@ def test_grading_a_scan_through_the_nominal_groups_matches_the_clean_nominal():
     equals the clean nominal's, for every order both resolve (the grader says "not resolved" where
     the noise hides an order; that is not a disagreement). Reference: the clean nominal graded by the
     same estimator (surfcheck.grading.continuity)."""
-    from surfcheck.grading.continuity import grade_seam
+    from surfcheck.grading.run import grade_seam
     from surfcheck.demo.scenario import SCAN_MOTION, SCAN_NOISE, housing_part
     from surfcheck.seams import group_seams
     from surfcheck.demo.shapes import add_normal_noise

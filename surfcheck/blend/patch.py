@@ -336,7 +336,7 @@ def _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_
 
 def prove_blend(merged: MergedBlend, profile) -> list:
     """Grade the patch's two new seams with the continuity estimator: the evidence of its order."""
-    from surfcheck.grading.continuity import grade_seam
+    from surfcheck.grading.run import grade_seam
 
     return [grade_seam(merged.part, seam, profile.in_units(merged.part.units)) for seam in (merged.seam_a, merged.seam_b)]
 

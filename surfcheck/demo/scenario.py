@@ -26,14 +26,14 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from surfcheck.blend.patch import build_blend, merge_with_patch, prove_blend
-from surfcheck.grading.continuity import grade_seam
+from surfcheck.grading.run import grade_part
 from surfcheck.io import read_part, save_part, write_atomic
 from surfcheck.part import Part
 from surfcheck.seams import Curve, SeamIndex
 from surfcheck.segmentation.segment import seams_of_segmentation, segment_part
 from surfcheck.review.folder import write_report
 from surfcheck.demo.shapes import Profile, add_normal_noise, arc, clothoid, corner, extrude, line, ramp
-from surfcheck.grading.document import CAUTION, grade_document, parse_requirement, verdict
+from surfcheck.grading.document import CAUTION, parse_requirement, run_document, verdict
 from surfcheck.summary import part_summary
 from surfcheck.grading.tolerances import load_profile
 from surfcheck.segmentation.transfer import transfer_groups
@@ -224,15 +224,15 @@ def _grade_and_review(loaded, seams: list[Curve], folder: Path, say, tolerance: 
     part = loaded.part
     profile = load_profile(tolerance).in_units(part.units)
     required = parse_requirement(REVIEW_REQUIREMENT)
-    grades = [grade_seam(part, seam, profile) for seam in seams]
+    run = grade_part(part, seams, profile)
+    grades = run.grades
     u = part.units
     say(f"  tolerance profile {profile.name}: G0 {profile.g0_gap:g} {u}, G1 {profile.g1_angle:g} deg,"
         f" G2 {profile.g2_abs:g} 1/{u} (or {profile.g2_rel:.0%}), G3 {profile.g3_abs:g} 1/{u}^2 (or {profile.g3_rel:.0%})")
-    for seam in grade_document(part, grades, profile, required)["seams"]:
+    parameters = {"seams": ["all"], "nominal": None}
+    for seam in run_document(run, required, parameters)["seams"]:
         say(_seam_line(seam, built or {}))
-    page = write_report(part, grades, profile, required, folder,
-                        parameters={"stations": None, "spacing": None, "seams": ["all"]},
-                        summary=part_summary(loaded))
+    page = write_report(run, required, folder, parameters=parameters, summary=part_summary(loaded))
     say(f"  review page {page} ({verdict(grades, required)} for {REVIEW_REQUIREMENT})")
     return {"page": str(page), "verdict": verdict(grades, required), "achieved": {g.id: g.achieved for g in grades}}
 

@@ -23,11 +23,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from surfcheck.errors import InputError
-from surfcheck.part import Part
 from surfcheck.seams import Curve
-from surfcheck.grading.sections import Section, cut_sections
-from surfcheck.grading.sidefit import SideEstimate, fit_side
+from surfcheck.grading.sections import Section
+from surfcheck.grading.sidefit import CURVATURE, HEADING, OFFSET, RATE, SideEstimate, fit_side
+from surfcheck.grading.status import Status
 from surfcheck.grading.tolerances import ToleranceProfile
 from surfcheck.grading.transition import find_transition, split_at
 
@@ -46,12 +45,12 @@ class OrderResult:
     value: float
     uncertainty: float
     tolerance: float
-    status: str
+    status: Status
     relative: float | None = None
 
     def to_dict(self) -> dict:
-        out = {"value": _num(self.value), "uncertainty": _num(self.uncertainty),
-               "tolerance": _num(self.tolerance), "status": self.status}
+        out = {"value": _measured(self.value, self.uncertainty), "uncertainty": _num(self.uncertainty),
+               "tolerance": _num(self.tolerance), "status": self.status.value}
         if self.relative is not None:
             out["relative"] = _num(self.relative)
         return out
@@ -88,15 +87,15 @@ class OrderSummary:
     value: float
     uncertainty: float
     tolerance: float
-    status: str
+    status: Status
     max: float
     p95: float
     worst_station: int
     worst_position: np.ndarray
 
     def to_dict(self, unit: str) -> dict:
-        return {"value": _num(self.value), "uncertainty": _num(self.uncertainty),
-                "tolerance": _num(self.tolerance), "status": self.status, "unit": unit,
+        return {"value": _measured(self.value, self.uncertainty), "uncertainty": _num(self.uncertainty),
+                "tolerance": _num(self.tolerance), "status": self.status.value, "unit": unit,
                 "max": _num(self.max), "p95": _num(self.p95), "worst_station": self.worst_station,
                 "worst_position": [float(c) for c in self.worst_position]}
 
@@ -116,7 +115,7 @@ class SeamGrade:
     achieved: int
 
     @property
-    def limited_by(self) -> tuple[str, str] | None:
+    def limited_by(self) -> tuple[str, Status] | None:
         """The first order that does not hold and why ("fail" or "not resolved"), None at G3."""
         if self.achieved >= 3:
             return None
@@ -133,7 +132,7 @@ class SeamGrade:
             "tolerance": self.tolerance,
             "stations": len(self.stations),
             "achieved": self.achieved,
-            "limited_by": None if limit is None else {"order": limit[0], "status": limit[1]},
+            "limited_by": None if limit is None else {"order": limit[0], "status": limit[1].value},
             "orders": {name: summary.to_dict(unit.format(u=self.units))
                        for name, summary, unit in zip(ORDERS, self.orders, UNITS)},
             "station_values": [s.to_dict() for s in self.stations],
@@ -144,59 +143,78 @@ def _num(x: float) -> float | None:
     return float(x) if np.isfinite(x) else None
 
 
+def _measured(value: float, uncertainty: float) -> float | None:
+    """A value only where its uncertainty is known: an estimate without one decides nothing (null)."""
+    return _num(value) if np.isfinite(uncertainty) else None
+
+
 # ---------------------------------------------------------------- decisions
 
 
-def decide(value: float, uncertainty: float, tolerance: float, coverage: float) -> str:
+def decide(value: float, uncertainty: float, tolerance: float, coverage: float) -> Status:
     """ok when value + k u <= tolerance, fail when value - k u > tolerance, else not resolved."""
     expanded = coverage * uncertainty
     if not np.isfinite(expanded):
-        return "not resolved"
+        return Status.NOT_RESOLVED
     if value + expanded <= tolerance:
-        return "ok"
+        return Status.OK
     if value - expanded > tolerance:
-        return "fail"
-    return "not resolved"
+        return Status.FAIL
+    return Status.NOT_RESOLVED
 
 
-def fit_sides(section: Section, shift: float) -> tuple[np.ndarray, np.ndarray, SideEstimate, SideEstimate]:
-    """Each side's data, split at ``shift`` along the section (0: as labelled), and its one-sided fit."""
+@dataclass(frozen=True)
+class StationSides:
+    """A station's data of each side (section coordinates, after the re-split at the found transition)
+    and the two one-sided estimates the grade was computed from."""
+
+    shift: float  # transition search offset along the section, length (0: split as labelled)
+    data_a: np.ndarray  # (n_a, 2) float
+    data_b: np.ndarray  # (n_b, 2) float
+    a: SideEstimate
+    b: SideEstimate
+
+
+def fit_sides(section: Section, search: bool = False) -> StationSides:
+    """Each side's data and its one-sided fit (sidefit.fit_side); with ``search`` on a welded seam the
+    split first moves to the transition found along the section (transition.find_transition)."""
+    shift = find_transition(section) if (search and section.welded) else 0.0
     if shift != 0.0:
         data_a, data_b, end_a = split_at(section, shift)
         end_b = end_a
     else:
         data_a, data_b, end_a, end_b = section.side_a, section.side_b, section.end_a, section.end_b
     h_a, h_b = section.scales
-    return data_a, data_b, fit_side(data_a, end_a, -1.0, h_a), fit_side(data_b, end_b, 1.0, h_b)
+    return StationSides(shift, data_a, data_b, fit_side(data_a, end_a, -1.0, h_a), fit_side(data_b, end_b, 1.0, h_b))
 
 
-def grade_section(section: Section, profile: ToleranceProfile, search: bool = False) -> StationResult:
-    """Fit both sides at one station and grade G0..G3 against the profile (in the part's units)."""
-    shift = find_transition(section) if (search and section.welded) else 0.0
-    _, _, a, b = fit_sides(section, shift)
+def grade_sides(section: Section, sides: StationSides, profile: ToleranceProfile) -> StationResult:
+    """Grade G0..G3 at one station from both sides' estimates against the profile (part units)."""
+    a, b = sides.a, sides.b
     k = profile.coverage
     gap = float(np.linalg.norm(b.point - a.point))
-    turn = (b.values[1] - a.values[1] + np.pi) % (2 * np.pi) - np.pi
+    turn = (b.heading - a.heading + np.pi) % (2 * np.pi) - np.pi
     # on a welded seam the common seam point lies off the curves by about the fits' offsets; where
     # the tangents differ, that moves the two sides' points apart by offset * sin(angle)
-    off = max(abs(a.values[0]), abs(b.values[0])) * abs(np.sin(turn)) if section.welded else 0.0
-    u_gap = float(np.sqrt(a.variances[0] + b.variances[0] + off**2))
-    angle, u_angle = float(np.degrees(abs(turn))), float(np.degrees(np.sqrt(a.variances[1] + b.variances[1])))
+    off = max(abs(a.values[OFFSET]), abs(b.values[OFFSET])) * abs(np.sin(turn)) if section.welded else 0.0
+    u_gap = float(np.sqrt(a.variances[OFFSET] + b.variances[OFFSET] + off**2))
+    angle = float(np.degrees(abs(turn)))
+    u_angle = float(np.degrees(np.hypot(a.uncertainty(HEADING), b.uncertainty(HEADING))))
     orders = [
         OrderResult(gap, u_gap, profile.g0_gap, decide(gap, u_gap, profile.g0_gap, k)),
         OrderResult(angle, u_angle, profile.g1_angle, decide(angle, u_angle, profile.g1_angle, k)),
     ]
-    for q, absolute, relative in ((2, profile.g2_abs, profile.g2_rel), (3, profile.g3_abs, profile.g3_rel)):
+    for q, absolute, relative in ((CURVATURE, profile.g2_abs, profile.g2_rel), (RATE, profile.g3_abs, profile.g3_rel)):
         jump = float(abs(b.values[q] - a.values[q]))
-        u_jump = float(np.sqrt(a.variances[q] + b.variances[q]))
+        u_jump = float(np.hypot(a.uncertainty(q), b.uncertainty(q)))
         larger = float(max(abs(a.values[q]), abs(b.values[q])))
         tol = max(absolute, relative * larger)
         orders.append(OrderResult(jump, u_jump, tol, decide(jump, u_jump, tol, k),
                                   jump / larger if larger > 0 else 0.0))
     position = section.to_world(0.5 * (a.point + b.point))
-    return StationResult(section.index, section.s, position, shift, tuple(orders),
-                         (float(a.values[2]), float(b.values[2])), (float(a.values[3]), float(b.values[3])),
-                         (a.count, b.count), (float(a.windows[2]), float(b.windows[2])))
+    return StationResult(section.index, section.s, position, sides.shift, tuple(orders),
+                         (a.curvature, b.curvature), (a.rate, b.rate), (a.count, b.count),
+                         (float(a.windows[CURVATURE]), float(b.windows[CURVATURE])))
 
 
 def summarize(stations: list[StationResult], order: int) -> OrderSummary:
@@ -204,8 +222,7 @@ def summarize(stations: list[StationResult], order: int) -> OrderSummary:
     resolved; the governing station is the one with the largest value / tolerance among those that
     share the seam's status."""
     results = [s.orders[order] for s in stations]
-    statuses = [r.status for r in results]
-    status = "fail" if "fail" in statuses else ("ok" if all(x == "ok" for x in statuses) else "not resolved")
+    status = Status.combine(r.status for r in results)
     ratio = np.array([r.value / r.tolerance if r.status == status else -np.inf for r in results])
     worst = int(np.argmax(ratio))
     values = np.array([r.value for r in results])
@@ -218,38 +235,15 @@ def achieved_order(summaries: list[OrderSummary]) -> int:
     """Highest k with G0..Gk all ok; -1 when G0 is not."""
     k = -1
     for summary in summaries:
-        if summary.status != "ok":
+        if summary.status != Status.OK:
             break
         k += 1
     return k
 
 
-def grade_seam(
-    part: Part,
-    seam: Curve,
-    profile: ToleranceProfile,
-    stations: int | None = None,
-    spacing: float | None = None,
-    *,
-    strip: float | None = None,
-    reach: float | None = None,
-    search: bool = False,
-) -> SeamGrade:
-    """Grade the continuity of a seam between two face groups (welded, or separate shells).
-
-    ``stations`` (a count) or ``spacing`` (a length) place the stations; by default they are two
-    strip widths apart, at most 48. ``strip`` and ``reach`` are passed to sections.cut_sections;
-    ``search`` enables the transition search on welded seams (transition.py; off by default: a
-    split found one edge off the true transition biases the fits next to it). Tolerances are
-    converted to the part's units.
-    """
-    if seam.kind != "seam":
-        raise InputError(f"{seam.id} is a {seam.kind}, not a seam between two groups")
-    profile = profile.in_units(part.units)
-    sections = cut_sections(part, seam, stations, spacing, strip, reach)
-    if not sections:
-        raise InputError(f"{seam.id}: no station has data on both sides; check the groups {seam.groups}")
-    results = [grade_section(section, profile, search) for section in sections]
+def seam_grade(seam: Curve, welded: bool, results: list[StationResult], profile: ToleranceProfile,
+               units: str) -> SeamGrade:
+    """A seam's grade from its graded stations (at least one): per-order summaries and ``achieved``."""
     summaries = [summarize(results, k) for k in range(4)]
-    return SeamGrade(seam.id, (seam.groups[0], seam.groups[1]), seam.length, sections[0].welded, part.units,
-                     profile.name, tuple(summaries), tuple(results), achieved_order(summaries))
+    return SeamGrade(seam.id, (seam.groups[0], seam.groups[1]), seam.length, welded, units, profile.name,
+                     tuple(summaries), tuple(results), achieved_order(summaries))

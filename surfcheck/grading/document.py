@@ -7,6 +7,7 @@ from surfcheck.grading.advice import advise
 from surfcheck.grading.continuity import ORDERS, SeamGrade
 from surfcheck.errors import InputError
 from surfcheck.part import Part
+from surfcheck.grading.run import GradeRun
 from surfcheck.grading.tolerances import ToleranceProfile
 
 CAUTION = (
@@ -34,8 +35,12 @@ def verdict(grades: list[SeamGrade], required: int | None) -> str:
 
 
 def grade_document(part: Part, grades: list[SeamGrade], profile: ToleranceProfile, required: int | None,
-                   parameters: dict | None = None) -> dict:
-    """The JSON-ready result of grading seams of a part (JSON Schema: docs/grade.schema.json)."""
+                   parameters: dict | None = None, not_graded: list[dict] | None = None) -> dict:
+    """The JSON-ready result of grading seams of a part (JSON Schema: docs/grade.schema.json).
+
+    ``not_graded``: the requested seams that could not be graded, as {"id", "groups", "reason"}; while
+    one is listed a requirement is not met (nothing shows that the seam holds it)."""
+    not_graded = list(not_graded or [])
     return {
         "tool": {"name": "surfcheck", "version": __version__},
         "part": {"source": part.source, "units": part.units, "vertices": part.n_vertices,
@@ -43,9 +48,18 @@ def grade_document(part: Part, grades: list[SeamGrade], profile: ToleranceProfil
         "units": part.units,
         "tolerance": profile.to_dict(),
         "require": None if required is None else ORDERS[required],
-        "verdict": verdict(grades, required),
+        "verdict": "fail" if (not_graded and required is not None) else verdict(grades, required),
         "parameters": parameters or {},
         "seams": [g.to_dict() for g in grades],
+        "not_graded": not_graded,
         "advice": [a.to_dict() for a in (advise(g, profile.coverage) for g in grades) if a is not None],
         "caution": CAUTION,
     }
+
+
+def run_document(run: GradeRun, required: int | None, parameters: dict | None = None) -> dict:
+    """grade_document of a GradeRun: its grades, its options among the parameters (``parameters`` adds
+    the request: seams, nominal, notes) and the seams it could not grade."""
+    skipped = [{"id": s.curve.id, "groups": list(s.curve.groups), "reason": s.reason} for s in run.not_graded]
+    return grade_document(run.part, run.grades, run.profile, required,
+                          {**run.options.to_dict(), **(parameters or {})}, skipped)

@@ -48,6 +48,7 @@ RATE_SIGNIFICANCE = 3.0  # the reference takes the curvature rate when it exceed
 REFERENCE_ITERATIONS = 4
 REFERENCE_WINDOW_EDGES = 10.0  # window of the first cubic that gives a side's tangent
 ROUNDING = 1e-9  # relative resolution of the whole chain (transforms, fits) in double precision
+OFFSET, HEADING, CURVATURE, RATE = range(4)  # the quantities' places in SideEstimate's arrays
 _STEP = 1e-30  # complex step
 _GL_NODES, _GL_WEIGHTS = np.polynomial.legendre.leggauss(16)
 
@@ -69,7 +70,26 @@ class SideEstimate:
     @property
     def point(self) -> np.ndarray:
         """The fitted section curve's point at the seam, in section coordinates."""
-        return self.end + self.values[0] * _left(self.direction)
+        return self.end + self.values[OFFSET] * _left(self.direction)
+
+    @property
+    def heading(self) -> float:
+        """The tangent's heading at the seam point, radians (section frame)."""
+        return float(self.values[HEADING])
+
+    @property
+    def curvature(self) -> float:
+        """Curvature at the seam point, 1/length (positive away from the outward normal)."""
+        return float(self.values[CURVATURE])
+
+    @property
+    def rate(self) -> float:
+        """d(curvature)/d(arc length) at the seam point, 1/length^2."""
+        return float(self.values[RATE])
+
+    def uncertainty(self, quantity: int) -> float:
+        """Standard uncertainty of one quantity (OFFSET, HEADING, CURVATURE or RATE)."""
+        return float(np.sqrt(self.variances[quantity]))
 
 
 @dataclass(frozen=True)
@@ -277,14 +297,14 @@ def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float) -> Side
     side = _Side(points, end, sign, h, ref)
     est = _estimate(side, len(points), end)
     for _ in range(REFERENCE_ITERATIONS):
-        if not np.isfinite(est.variances[1:3]).all():
+        if not np.isfinite(est.variances[HEADING:RATE]).all():
             break
         new = _reference_from(est, side.reach)
-        u_k0, u_k1 = np.sqrt(est.variances[2:4])
+        u_k0, u_k1 = est.uncertainty(CURVATURE), est.uncertainty(RATE)
         converged = abs(new.k0 - ref.k0) <= 0.1 * u_k0 + 1e-12 and abs(new.k1 - ref.k1) <= 0.1 * u_k1 + 1e-12
         new_side = _Side(points, end, sign, h, new)
         new_est = _estimate(new_side, len(points), end)
-        if not np.isfinite(new_est.variances[1:3]).all():
+        if not np.isfinite(new_est.variances[HEADING:RATE]).all():
             break  # keep the last reference that gave an estimate
         ref, side, est = new, new_side, new_est
         if converged:
@@ -298,11 +318,10 @@ def _reference_from(est: SideEstimate, reach: float) -> Reference:
     """The reference clothoid of an estimate: its heading and curvature, and its curvature rate
     where that is significant and turns the reference by less than a radian over the data (else 0:
     a noisy rate would only bend the reference away from the data)."""
-    k1 = -float(est.values[3])
-    significant = (np.isfinite(est.variances[3]) and abs(k1) > RATE_SIGNIFICANCE * np.sqrt(est.variances[3])
+    k1 = -est.rate
+    significant = (np.isfinite(est.variances[RATE]) and abs(k1) > RATE_SIGNIFICANCE * est.uncertainty(RATE)
                    and 0.5 * abs(k1) * reach**2 <= 1.0)
-    heading = float(est.values[1])
-    return Reference(np.array([np.cos(heading), np.sin(heading)]), -float(est.values[2]), k1 if significant else 0.0)
+    return Reference(np.array([np.cos(est.heading), np.sin(est.heading)]), -est.curvature, k1 if significant else 0.0)
 
 
 def _estimate(side: _Side, count: int, end: np.ndarray) -> SideEstimate:
@@ -349,8 +368,8 @@ def _with_reference_noise(est: SideEstimate, points, end, sign, h, ref: Referenc
     nothing."""
     variances = est.variances.copy()
     windows = np.unique(est.windows)
-    for field, k in (("k0", 2), ("k1", 3)):
-        u_ref = float(np.sqrt(est.variances[k]))
+    for field, k in (("k0", CURVATURE), ("k1", RATE)):
+        u_ref = est.uncertainty(k)
         if (field == "k1" and ref.k1 == 0.0) or not np.isfinite(u_ref) or u_ref == 0.0:
             continue
         moved = [_Side(points, end, sign, h, replace(ref, **{field: getattr(ref, field) + e * u_ref})).fits(windows, 0.0)[0]

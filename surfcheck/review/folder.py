@@ -1,5 +1,6 @@
 """The review folder of a grading: DIR/index.html (page.py) with its pictures beside it, and
-DIR/result.json, the document `grade --json` prints (results.grade_document).
+DIR/result.json, the document `grade --json` prints (grading.document.run_document). Everything is
+drawn from the GradeRun: the stations, sections and side fits shown are the ones that were graded.
 
 Pictures: per seam, the curvature-jump field facing the seam with the seam coloured by its
 per-station result (whole part and a close-up at the governing station), the curvature profile across
@@ -24,11 +25,11 @@ from surfcheck.geometry.fields import VertexField, vertex_fields
 from surfcheck.io import LoadResult, write_atomic
 from surfcheck.review.page import Picture, review_page
 from surfcheck.part import Part
-from surfcheck.grading.document import grade_document
-from surfcheck.seams import Curve, SeamIndex
-from surfcheck.grading.sections import cut_sections
+from surfcheck.grading.document import run_document
+from surfcheck.grading.run import GradeRun
+from surfcheck.grading.status import Status
+from surfcheck.seams import Curve
 from surfcheck.summary import part_summary
-from surfcheck.grading.tolerances import ToleranceProfile
 from surfcheck.polyline import cumulative_arc_length
 
 PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
@@ -37,14 +38,9 @@ CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the s
 LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib")
 
 
-def station_statuses(grade: SeamGrade, upto: int) -> tuple[str, ...]:
-    """Per station, the decision over G0..G``upto``: fail if one fails, ok if all are ok, else not
-    resolved."""
-    out = []
-    for station in grade.stations:
-        statuses = [station.orders[k].status for k in range(upto + 1)]
-        out.append("fail" if "fail" in statuses else "ok" if all(s == "ok" for s in statuses) else "not resolved")
-    return tuple(out)
+def station_statuses(grade: SeamGrade, upto: int) -> tuple[Status, ...]:
+    """Per station, the decision over G0..G``upto`` (Status.combine)."""
+    return tuple(Status.combine(station.orders[k].status for k in range(upto + 1)) for station in grade.stations)
 
 
 def shown_order(grade: SeamGrade, required: int | None) -> int:
@@ -105,15 +101,6 @@ def _file_name(text: str) -> str:
     return re.sub(r"[^A-Za-z0-9._-]+", "_", text)
 
 
-def _curves(part: Part, grades: list[SeamGrade]) -> list[Curve]:
-    """The seam curve of each grade, with its sides in the grade's order."""
-    index = {c.id: c for c in SeamIndex(part).seams}
-    missing = [g.id for g in grades if g.id not in index]
-    if missing:
-        raise InputError(f"{part.source or 'part'}: no seam {', '.join(missing)} on this part")
-    return [replace(index[g.id], groups=g.groups) for g in grades]
-
-
 def _library_versions() -> str:
     from importlib.metadata import PackageNotFoundError, version
 
@@ -152,14 +139,29 @@ class _Steps:
             self.progress.stop()
 
 
-def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile, required: int | None,
-                 out_dir: str | Path, *, parameters: dict | None = None, summary: dict | None = None,
-                 quiet: bool = False) -> Path:
-    """Write the review of graded seams to ``out_dir``: index.html, result.json and the pictures.
+def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, parameters: dict | None = None,
+                 summary: dict | None = None, quiet: bool = False) -> Path:
+    """Write the review of a grading to ``out_dir``: index.html, result.json and the pictures.
 
-    ``parameters`` are the grading's (as grade_document takes them; its ``stations`` and ``spacing``
-    place the plotted stations as they placed the graded ones); ``summary`` is summary.part_summary
-    of the loaded part (made from the part alone when not given). Returns the page's path.
+    Parameters
+    ----------
+    run : GradeRun
+        The grading (grading.run.grade_part); its stations, sections and fits are drawn.
+    required : int or None
+        The required order (0..3), or None.
+    out_dir : str or Path
+        The folder; created when missing, InputError when it names a file.
+    parameters : dict, optional
+        The request beside the run's options (seams, nominal, notes), as run_document takes them.
+    summary : dict, optional
+        summary.part_summary of the loaded part (made from the part alone when not given).
+    quiet : bool
+        No progress bar.
+
+    Returns
+    -------
+    Path
+        The page, ``out_dir/index.html``.
     """
     from surfcheck.geometry.differential import principal_curvatures
     from surfcheck.review.plots import plot_along_seam, plot_profiles
@@ -167,11 +169,11 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
 
     out = check_folder(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    parameters = dict(parameters or {})
-    profile = profile.in_units(part.units)
-    document = grade_document(part, grades, profile, required, parameters)
+    part, profile = run.part, run.profile
+    graded = [s for s in run.seams if s.grade is not None]
+    grades = [s.grade for s in graded]
+    document = run_document(run, required, parameters)
     summary = summary or part_summary(LoadResult(part))
-    curves = _curves(part, grades)
     V, F = part.vertices, part.faces
     name = Path(part.source).name or "part"
     part_pictures: list[Picture] = []
@@ -181,7 +183,7 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
                   for q, f in vertex_fields(part, dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY])).items()}
         curvature = principal_curvatures(V, F)
         steps.advance("fields")
-        overlays = [seam_overlay(c, g, shown_order(g, required)) for c, g in zip(curves, grades)]
+        overlays = [seam_overlay(s.curve, s.grade, shown_order(s.grade, required)) for s in graded]
         shown = sorted({ORDERS[shown_order(g, required)] for g in grades})
         for quantity in PART_QUANTITIES:
             f = fields[quantity]
@@ -194,10 +196,10 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
                                          f" their per-station result up to {'/'.join(shown)}.{_grey(f)}",
                                          f"{quantity} heatmap of the whole part"))
             steps.advance(quantity)
-        for curve, grade, overlay in zip(curves, grades, overlays):
+        for seam, overlay in zip(graded, overlays):
+            curve, grade = seam.curve, seam.grade
             pictures = seam_pictures.setdefault(grade.id, [])
-            sections = cut_sections(part, curve, parameters.get("stations"), parameters.get("spacing"))
-            edge = sections[0].edge if sections else float(np.median(part.edge_lengths))
+            edge = seam.stations[0].section.edge
             order = shown_order(grade, required)
             focus = grade.orders[order].worst_position
             f = fields[SEAM_QUANTITY]
@@ -219,8 +221,7 @@ def write_report(part: Part, grades: list[SeamGrade], profile: ToleranceProfile,
             pictures.append(Picture(f"{stem}-along.png", f"G0..G3 at each station along {grade.id} against the"
                                     " tolerance (shaded: within tolerance).", f"{grade.id} G0 to G3 along the seam"))
             steps.advance(f"{grade.id} along the seam")
-            plot_profiles(grade, sections, out / f"{stem}-profiles.png", coverage=profile.coverage,
-                          curvature=curvature)
+            plot_profiles(seam, out / f"{stem}-profiles.png", coverage=profile.coverage, curvature=curvature)
             pictures.append(Picture(f"{stem}-profiles.png", f"The section and the curvature across {grade.id} at"
                                     " its worst stations, each side's one-sided fit over its data.",
                                     f"{grade.id} curvature profiles"))
@@ -239,8 +240,10 @@ def _notes(document: dict) -> list[str]:
     """Cautions that this result calls for, beyond the standing one."""
     notes = []
     unresolved = sorted({f"{s['id']} {k}" for s in document["seams"] for k, o in s["orders"].items()
-                         if o["status"] == "not resolved"})
+                         if o["status"] == Status.NOT_RESOLVED})
     if unresolved:
         notes.append("Not resolved (the data cannot decide within the tolerance; measure finer or with less"
                      f" noise before concluding): {', '.join(unresolved)}.")
+    for seam in document["not_graded"]:
+        notes.append(f"Not graded: {seam['id']} ({' | '.join(seam['groups'])}): {seam['reason']}.")
     return notes

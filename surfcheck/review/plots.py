@@ -13,14 +13,16 @@ what a two-sided estimate makes of the seam.
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
-from surfcheck.grading.continuity import ORDERS, UNITS, SeamGrade, SideEstimate, StationResult, fit_sides
-from surfcheck.review.render import STATUS_COLOURS, STATUS_TEXT, save_figure
+from surfcheck.grading.continuity import ORDERS, UNITS, SeamGrade, StationResult
+from surfcheck.grading.run import SeamRun
 from surfcheck.grading.sections import Section
+from surfcheck.grading.sidefit import CURVATURE, RATE, SideEstimate
+from surfcheck.grading.status import Status
+from surfcheck.review.render import STATUS_COLOURS, STATUS_TEXT, save_figure
 
 SIDE_COLOURS = ("#3a6fb0", "#e08a1e")  # side A, side B
 MODEL_SAMPLES = 200
@@ -28,29 +30,12 @@ MODEL_TURN = np.pi / 4  # a model curve is drawn until it turns this far from it
 LOG_ABOVE = 20.0  # the along-seam axis turns logarithmic above the tolerance past this many tolerances
 
 
-@dataclass(frozen=True)
-class StationSides:
-    """A station's data of each side (section coordinates, after the grader's re-split at the found
-    transition) and the two one-sided estimates, as the grader computed them."""
-
-    data_a: np.ndarray
-    data_b: np.ndarray
-    a: SideEstimate
-    b: SideEstimate
-
-
-def station_sides(section: Section, station: StationResult) -> StationSides:
-    """Both sides' data and one-sided fits at a graded station, recomputed with the grader's functions
-    (the transition shift is the station's own)."""
-    return StationSides(*fit_sides(section, station.shift))
-
-
 def model_curve(side: SideEstimate, sign: float, length: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """A side's local model curve from its seam point into the side (``sign`` -1 for side A, whose
     data lies before the seam, +1 for side B) over ``length`` of arc: points (n, 2), arc length s (n,)
     (signed like ``sign``) and curvature kappa + rate s (surfcheck's sign). The curve stops early
     where it has turned MODEL_TURN from its tangent: a local model says little beyond that."""
-    kappa0, rate = side.values[2], side.values[3]
+    kappa0, rate = side.curvature, side.rate
     s = np.linspace(0.0, sign * length, 4 * MODEL_SAMPLES)
     turned = np.abs(kappa0 * s + 0.5 * rate * s * s) > MODEL_TURN
     if turned.any():
@@ -58,7 +43,7 @@ def model_curve(side: SideEstimate, sign: float, length: float) -> tuple[np.ndar
     s = np.linspace(0.0, sign * length, MODEL_SAMPLES)
     # a plane curve turns left with positive signed curvature; surfcheck's curvature is positive where
     # the curve bends away from the outward normal (+y), turning it right: heading' = -kappa
-    heading = side.values[1] - (kappa0 * s + 0.5 * rate * s * s)
+    heading = side.heading - (kappa0 * s + 0.5 * rate * s * s)
     tangents = np.column_stack([np.cos(heading), np.sin(heading)])
     steps = np.diff(s)[:, None] * 0.5 * (tangents[1:] + tangents[:-1])
     points = side.point + np.vstack([np.zeros((1, 2)), np.cumsum(steps, axis=0)])
@@ -108,23 +93,20 @@ def _save(plt, fig, path: str | os.PathLike) -> Path:
     return save_figure(fig, path, 100)
 
 
-def plot_profiles(grade: SeamGrade, sections: list[Section], path: str | os.PathLike, *, coverage: float,
-                  curvature=None, count: int = 2) -> Path:
+def plot_profiles(seam: SeamRun, path: str | os.PathLike, *, coverage: float, curvature=None,
+                  count: int = 2) -> Path:
     """The seam's worst stations side by side: on top the section data of each side with its one-sided
     model curve and the seam point; below, the curvature across the seam: each side's model
     curvature with its expanded uncertainty band, the vertices' two-sided curvature (when
     ``curvature``, a differential.Curvature, is given), and the G2 jump with its uncertainty."""
-    by_index = {s.index: s for s in sections}
-    picks = [grade.stations[k] for k in worst_stations(grade, count)]
-    picks = [st for st in picks if st.index in by_index]
+    grade = seam.grade
+    picks = [seam.stations[k] for k in worst_stations(grade, count)]
     u = grade.units
     plt, fig = _figure(6.2 * max(1, len(picks)), 8.2)
     grid = fig.add_gridspec(2, max(1, len(picks)), height_ratios=[1.0, 1.25], hspace=0.32, wspace=0.28,
                             left=0.09 if len(picks) < 2 else 0.07, right=0.98, top=0.88, bottom=0.16)
-    for column, station in enumerate(picks):
-        section = by_index[station.index]
-        sides = station_sides(section, station)
-        _profile_column(fig, grid, column, section, station, sides, coverage, curvature, u)
+    for column, graded in enumerate(picks):
+        _profile_column(fig, grid, column, graded.section, graded.result, graded.sides, coverage, curvature, u)
     fig.suptitle(f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}): curvature across the seam at the worst"
                  " stations", fontsize=13, x=0.02, ha="left")
     if picks:
@@ -154,18 +136,18 @@ def _profile_legend(with_vertices: bool) -> list:
 def _profile_column(fig, grid, column, section, station, sides, coverage, curvature, u) -> None:
     top = fig.add_subplot(grid[0, column])
     low = fig.add_subplot(grid[1, column], sharex=top)
-    reach = float(np.clip(1.5 * max(sides.a.windows[2], sides.b.windows[2]), 6.0 * section.edge, 20.0 * section.edge))
+    reach = float(np.clip(1.5 * max(sides.a.windows[CURVATURE], sides.b.windows[CURVATURE]), 6.0 * section.edge, 20.0 * section.edge))
     seam = 0.5 * (sides.a.point + sides.b.point)
     shown = [np.asarray(station.curvature, dtype=float)]
     for data, side, sign, colour in ((sides.data_a, sides.a, -1.0, SIDE_COLOURS[0]),
                                      (sides.data_b, sides.b, 1.0, SIDE_COLOURS[1])):
         near = np.abs(data[:, 0] - seam[0]) <= reach
         top.plot(data[near, 0], data[near, 1], ".", ms=2.5, alpha=0.35, color=colour, zorder=1)
-        if not np.isfinite(side.variances[2]):
+        if not np.isfinite(side.variances[CURVATURE]):
             continue
-        points, s, kappa = model_curve(side, sign, max(side.windows[2], 2.0 * section.edge))
+        points, s, kappa = model_curve(side, sign, max(side.windows[CURVATURE], 2.0 * section.edge))
         top.plot(points[:, 0], points[:, 1], "-", lw=2.0, color=colour)
-        band = coverage * np.sqrt(side.variances[2] + s**2 * side.variances[3])
+        band = coverage * np.sqrt(side.variances[CURVATURE] + s**2 * side.variances[RATE])
         low.fill_between(points[:, 0], kappa - band, kappa + band, color=colour, alpha=0.18, lw=0)
         low.plot(points[:, 0], kappa, "-", lw=2.0, color=colour)
         shown.append(kappa[np.abs(points[:, 0] - seam[0]) <= reach])
@@ -209,12 +191,12 @@ def _annotate_orders(ax, station: StationResult, orders: tuple[int, ...], covera
     without symbols, placed by matplotlib's "best" rule)."""
     from matplotlib.lines import Line2D
 
-    lines, worst = [], "ok"
+    lines = []
     for k in orders:
         r = station.orders[k]
         unit = UNITS[k].format(u=u)
         lines.append(f"{ORDERS[k]} {r.value:.3g} ± {coverage * r.uncertainty:.2g} {unit}, tol {r.tolerance:.3g}: {r.status}")
-        worst = "fail" if "fail" in (worst, r.status) else ("not resolved" if r.status != "ok" else worst)
+    worst = Status.combine(station.orders[k].status for k in orders)
     box = ax.legend([Line2D([], [], ls="none")], ["\n".join(lines)], loc="best", handlelength=0, handletextpad=0,
                     fontsize=9.5, framealpha=0.9, edgecolor=STATUS_TEXT[worst])
     for text in box.get_texts():
@@ -240,8 +222,8 @@ def plot_along_seam(grade: SeamGrade, path: str | os.PathLike, *, coverage: floa
         top = float(np.nanmax(np.where(np.isfinite(value + expanded), value + expanded, value)))
         edges = np.concatenate([[0.0], 0.5 * (s[1:] + s[:-1]), [max(grade.length, float(s[-1]))]])
         steps = np.append(tolerance, tolerance[-1])
-        ax.fill_between(edges, 0.0, steps, step="post", color=STATUS_COLOURS["ok"], alpha=0.12, lw=0)
-        ax.step(edges, steps, where="post", color=STATUS_COLOURS["ok"], lw=1.4)
+        ax.fill_between(edges, 0.0, steps, step="post", color=STATUS_COLOURS[Status.OK], alpha=0.12, lw=0)
+        ax.step(edges, steps, where="post", color=STATUS_COLOURS[Status.OK], lw=1.4)
         for status, colour in STATUS_COLOURS.items():
             pick = np.array([r.status == status for r in results])
             if pick.any():
@@ -260,7 +242,7 @@ def plot_along_seam(grade: SeamGrade, path: str | os.PathLike, *, coverage: floa
                 color=STATUS_TEXT[grade.orders[k].status], fontweight="bold")
     axes[-1].set_xlabel(f"station position along the seam, s [{u}]")
     axes[-1].set_xlim(0.0, max(grade.length, float(s.max()) if len(s) else 0.0))
-    handles = [Line2D([], [], color=STATUS_COLOURS["ok"], lw=1.4, label="tolerance (band: within)")]
+    handles = [Line2D([], [], color=STATUS_COLOURS[Status.OK], lw=1.4, label="tolerance (band: within)")]
     handles += [Line2D([], [], color=c, marker="o", ls="none", label=f"station {st}") for st, c in STATUS_COLOURS.items()]
     fig.legend(handles=handles, loc="upper left", bbox_to_anchor=(0.1, 0.955), fontsize=10, frameon=False, ncols=4)
     fig.suptitle(f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}): G0..G3 along the seam; error bars:"

@@ -21,10 +21,11 @@ from pathlib import Path
 
 import numpy as np
 
+from surfcheck.grading.status import Status
 from surfcheck.io import write_atomic
 
-STATUS_COLOURS = {"ok": "#1f9e89", "fail": "#d7263d", "not resolved": "#9aa0a6"}
-STATUS_TEXT = {"ok": "#137a69", "fail": "#b0172c", "not resolved": "#5f6368"}  # darker, for text
+STATUS_COLOURS = {Status.OK: "#1f9e89", Status.FAIL: "#d7263d", Status.NOT_RESOLVED: "#9aa0a6"}
+STATUS_TEXT = {Status.OK: "#137a69", Status.FAIL: "#b0172c", Status.NOT_RESOLVED: "#5f6368"}  # darker, for text
 PERCENTILES = (2.0, 98.0)  # colour limits; common practice, no published source
 TILT_DEG = 30.0  # views are tilted this far out of the best-facing direction; common practice
 CANDIDATE_DIRECTIONS = 400

@@ -286,18 +286,22 @@ def write_atomic(path: Path, payload: bytes) -> None:
 
 
 def _obj_bytes(part: Part) -> bytes:
-    lines = [f"# surfcheck part, units {part.units}"]
-    lines += [f"v {x:.17g} {y:.17g} {z:.17g}" for x, y, z in part.vertices]
-    order = np.argsort(part.face_group, kind="stable")
-    current = -1
-    for face in order:
-        group = int(part.face_group[face])
-        if group != current:
-            lines.append(f"g {part.group_names[group]}")
-            current = group
-        a, b, c = part.faces[face] + 1
-        lines.append(f"f {a} {b} {c}")
-    return ("\n".join(lines) + "\n").encode()
+    """Wavefront OBJ text: the vertices (shortest round-trip decimals), then each group's faces under
+    a ``g`` line; rows are formatted by numpy's string operations, not a Python loop per face."""
+    blocks = [f"# surfcheck part, units {part.units}", _rows("v", part.vertices.astype(str))]
+    for group, name in enumerate(part.group_names):
+        faces = part.faces[part.face_group == group]
+        if len(faces):
+            blocks += [f"g {name}", _rows("f", (faces + 1).astype(str))]
+    return ("\n".join(b for b in blocks if b) + "\n").encode()
+
+
+def _rows(keyword: str, cells: np.ndarray) -> str:
+    """Lines "keyword c0 c1 c2" of an (n, 3) array of strings."""
+    line = np.char.add(keyword + " ", cells[:, 0])
+    for column in range(1, cells.shape[1]):
+        line = np.char.add(np.char.add(line, " "), cells[:, column])
+    return "\n".join(line.tolist())
 
 
 def _ply_bytes(part: Part, vertex_fields: dict[str, np.ndarray] | None = None) -> bytes:

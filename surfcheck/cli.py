@@ -142,6 +142,9 @@ TOLERANCE_OPT = typer.Option("general", "--tolerance", help="Profile name (styli
 REQUIRE_OPT = typer.Option(None, "--require", help="G0, G1, G2 or G3: exit 1 if a seam falls short.")
 STATIONS_OPT = typer.Option(None, "--stations", min=3, help="Stations per seam (default from its length).")
 SPACING_OPT = typer.Option(None, "--spacing", help="Distance between stations, in part units.")
+STRIP_OPT = typer.Option(None, "--strip", help="Half-width of a station's strip along the seam, part units (default from the edge length).")
+REACH_OPT = typer.Option(None, "--reach", help="How far from the seam a section reaches, part units (default from the edge length).")
+SEARCH_OPT = typer.Option(False, "--search", help="On a welded seam, move the split to the transition found along each section.")
 NOMINAL_OPT = typer.Option(None, "--nominal", help="A grouped nominal part: align the scan to it and grade by its group names.")
 
 
@@ -157,6 +160,9 @@ def grade(
     as_json: bool = JSON_OPT,
     report_dir: Optional[Path] = typer.Option(None, "--report", help="Also write the review page (index.html, pictures, result.json) to this folder."),
     nominal: Optional[Path] = NOMINAL_OPT,
+    strip: Optional[float] = STRIP_OPT,
+    reach: Optional[float] = REACH_OPT,
+    search: bool = SEARCH_OPT,
 ) -> None:
     """Grade G0..G3 continuity across seams, with uncertainty, against a tolerance profile.
 
@@ -175,7 +181,7 @@ def grade(
     loaded = read_part(part, units=units)
     reference = read_part(nominal, units=units).part if nominal is not None else None
     chosen = select_seams(loaded.part, list(seam), reference)
-    run = grade_part(chosen.part, chosen.seams, profile, GradeOptions(stations, spacing),
+    run = grade_part(chosen.part, chosen.seams, profile, GradeOptions(stations, spacing, strip, reach, search),
                      progress=lambda seams: _progress(seams, "grading seams", quiet=as_json))
     if not run.grades:
         raise InputError("; ".join(f"{s.curve.id}: {s.reason}" for s in run.not_graded))
@@ -204,9 +210,13 @@ def report(
     spacing: Optional[float] = SPACING_OPT,
     units: str = UNITS_OPT,
     nominal: Optional[Path] = NOMINAL_OPT,
+    strip: Optional[float] = STRIP_OPT,
+    reach: Optional[float] = REACH_OPT,
+    search: bool = SEARCH_OPT,
 ) -> None:
     """Grade seams and write a review page with pictures and plots (DIR/index.html, DIR/result.json)."""
-    grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out, nominal=nominal)
+    grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out, nominal=nominal,
+          strip=strip, reach=reach, search=search)
 
 
 @app.command()

@@ -27,11 +27,12 @@ def parse_requirement(text: str | None) -> int | None:
     return ORDERS.index(name)
 
 
-def verdict(grades: list[SeamGrade], required: int | None) -> str:
-    """"pass" when every seam achieves the requirement, "fail" when one does not, "no requirement"."""
+def verdict(grades: list[SeamGrade], required: int | None, not_graded: int = 0) -> str:
+    """"pass" when every seam achieves the requirement, "fail" when one does not or when ``not_graded``
+    requested seams could not be graded (nothing shows that they hold it), "no requirement"."""
     if required is None:
         return "no requirement"
-    return "pass" if all(g.achieved >= required for g in grades) else "fail"
+    return "pass" if not_graded == 0 and all(g.achieved >= required for g in grades) else "fail"
 
 
 def grade_document(part: Part, grades: list[SeamGrade], profile: ToleranceProfile, required: int | None,
@@ -48,7 +49,7 @@ def grade_document(part: Part, grades: list[SeamGrade], profile: ToleranceProfil
         "units": part.units,
         "tolerance": profile.to_dict(),
         "require": None if required is None else ORDERS[required],
-        "verdict": "fail" if (not_graded and required is not None) else verdict(grades, required),
+        "verdict": verdict(grades, required, len(not_graded)),
         "parameters": parameters or {},
         "seams": [g.to_dict() for g in grades],
         "not_graded": not_graded,

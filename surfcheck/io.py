@@ -46,12 +46,42 @@ class LoadResult:
 
 
 def load_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> Part:
-    """Read a mesh file into a Part (duplicate vertices welded). InputError on unusable input."""
+    """Read a mesh file into a Part (duplicate vertices welded). InputError on unusable input.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        An .stl (binary or ASCII), .obj or .ply file.
+    units : str
+        Length unit of the coordinates ("mm", "in", ...).
+    weld : bool
+        Merge vertices closer than the weld tolerance.
+
+    Returns
+    -------
+    Part
+        The mesh with its face groups (one group when the file has none).
+    """
     return read_part(path, units=units, weld=weld).part
 
 
 def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> LoadResult:
-    """Read a mesh file and report welding and the non-fatal defects found."""
+    """Read a mesh file and report welding and the non-fatal defects found.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        An .stl, .obj or .ply file.
+    units : str
+        Length unit of the coordinates.
+    weld : bool
+        Merge vertices closer than the weld tolerance.
+
+    Returns
+    -------
+    LoadResult
+        The Part, how many vertices were welded and the non-fatal defects (validation.py).
+    """
     path = Path(path)
     name = str(path)
     if not path.exists():
@@ -255,7 +285,20 @@ def _ply_groups(mesh, header: list[str], n_faces: int) -> tuple[np.ndarray, list
 
 def save_part(part: Part, path: str | os.PathLike) -> Path:
     """Write a part as .obj (groups as `g`), .ply (binary, int `group` face property and
-    `comment group N NAME` lines) or .stl (binary; groups are lost). Atomic: temp name, then rename."""
+    `comment group N NAME` lines) or .stl (binary; groups are lost). Atomic: temp name, then rename.
+
+    Parameters
+    ----------
+    part : Part
+        The mesh to write.
+    path : str or PathLike
+        Target file; its suffix chooses the format.
+
+    Returns
+    -------
+    Path
+        The path written.
+    """
     path = Path(path)
     suffix = path.suffix.lower()
     writers = {".obj": _obj_bytes, ".ply": _ply_bytes, ".stl": _stl_bytes}

@@ -105,6 +105,26 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     columns are the median edge length of the two chains apart, and the rows that or, where closer, the
     shortest span / ROWS_PER_SPAN (not below the chains' edge / MAX_ROW_REFINEMENT): enough rows across
     the patch's curvature build-up at each seam for the mesh grader to read the order (docs/blend.md).
+
+    Parameters
+    ----------
+    part_a, part_b : Part
+        The two parts (may be the same Part).
+    chain_a, chain_b : Curve
+        Their open boundary chains to join.
+    order : int
+        Contact order 0..3 at both chains.
+    step : str
+        Smooth step kind (steps.KINDS).
+    span : float, optional
+        Extension reach, part units.
+    resolution : float, optional
+        Target edge length, part units.
+
+    Returns
+    -------
+    BlendResult
+        The patch mesh, its surface and the chain correspondence.
     """
     _check_request(part_a, chain_a, part_b, chain_b, order, step, span, resolution)
     if part_a.units != part_b.units:

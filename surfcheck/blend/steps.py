@@ -47,6 +47,22 @@ def smooth_step(x, kind: str = "exp", order: int = 2, derivative: int = 0) -> np
 
     At x = 0 and x = 1 the derivative is the one-sided one from inside [0, 1]; outside [0, 1] every
     derivative is 0. NaN in x gives NaN.
+
+    Parameters
+    ----------
+    x : array_like of float
+        Positions; the step rises over [0, 1].
+    kind : str
+        Step kind (KINDS).
+    order : int
+        Order of the step (its C^order class for the polynomial kinds).
+    derivative : int
+        Derivative to return, 0..9.
+
+    Returns
+    -------
+    ndarray of float
+        Same shape as x.
     """
     _check_kind(kind)
     if not (isinstance(order, (int, np.integer)) and 0 <= order <= MAX_ORDER):
@@ -73,6 +89,24 @@ def partition_of_unity(x, edges, kind: str = "exp", order: int = 2, derivative: 
     ``edges`` is a sequence of (start, end) intervals in increasing order, not overlapping. w_0 = 1
     left of the first interval, w_i = 1 between interval i-1 and interval i, w_m = 1 right of the last;
     across interval i the weight passes from w_i to w_{i+1} along the chosen step.
+
+    Parameters
+    ----------
+    x : array_like of float
+        Positions on the line.
+    edges : sequence of (float, float)
+        Transition intervals.
+    kind : str
+        Step kind (KINDS).
+    order : int
+        Order of the step (its C^order class for the polynomial kinds).
+    derivative : int
+        Derivative of the weights to return.
+
+    Returns
+    -------
+    (m + 1, *x.shape) float
+        The weights, or their derivatives.
     """
     x = np.asarray(x, dtype=np.float64)
     edges = np.asarray(edges, dtype=np.float64).reshape(-1, 2)

@@ -24,7 +24,7 @@ import numpy as np
 from surfcheck.errors import InputError
 from surfcheck.geometry.jetkernel import exponent_arrays, fit_local_jet, graph_shape, jet_exponents, tangent_frame
 from surfcheck.geometry.neighbours import ColumnGrid, check_radius, local_neighbours, neighbour_work
-from surfcheck.part import edge_table
+from surfcheck.part import check_mesh_arrays, edge_table
 
 PILOT_SAMPLE = 4000  # vertices of the pilot fits that choose the default radius
 MIN_RADIUS = 2.5  # default radius limits, in mean edge lengths: enough points for a quadric ...
@@ -37,12 +37,7 @@ HALF_DISC = 0.5  # centroid offset / RMS radius of the neighbours of a vertex on
 def _as_mesh(V: np.ndarray, F: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     V = np.ascontiguousarray(V, dtype=np.float64)
     F = np.ascontiguousarray(F, dtype=np.int64)
-    if V.ndim != 2 or V.shape[1] != 3 or F.ndim != 2 or F.shape[1] != 3:
-        raise InputError("vertices must be an (n, 3) array and faces an (m, 3) array")
-    if len(V) == 0 or len(F) == 0:
-        raise InputError("the mesh is empty: curvature needs vertices and triangles")
-    if F.min() < 0 or F.max() >= len(V):
-        raise InputError("a triangle refers to a vertex that does not exist")
+    check_mesh_arrays(V, F, "curvature")
     return V, F
 
 
@@ -120,6 +115,18 @@ def vertex_normals(V: np.ndarray, F: np.ndarray) -> np.ndarray:
 
     Outward for outward-wound (counter-clockwise seen from outside) faces. A vertex that no triangle
     uses gets the zero vector.
+
+    Parameters
+    ----------
+    V : (n, 3) float
+        Vertex coordinates.
+    F : (m, 3) int
+        Triangles, indices into V.
+
+    Returns
+    -------
+    (n, 3) float
+        Unit normals (zero rows for unused vertices).
     """
     V, F = _as_mesh(V, F)
     return _mesh_measures(V, F)[0]
@@ -314,6 +321,23 @@ def principal_curvatures(
     Interrante 2004). Curvatures and directions are those of the fitted graph at the vertex. Vertices
     near an open boundary get one-sided neighbourhoods and a lower ``quality``; vertices no triangle
     uses get NaN.
+
+    Parameters
+    ----------
+    V : (n, 3) float
+        Vertex coordinates, part units.
+    F : (m, 3) int
+        Triangles, indices into V, outward wound.
+    radius : float, optional
+        Neighbourhood radius, part units.
+    degree : int
+        Total degree of the jet, 2 to 4.
+
+    Returns
+    -------
+    Curvature
+        k1, k2 (n,) float in 1/unit (k1 >= k2), d1, d2 and normals (n, 3) float, the neighbour count
+        and fit quality per vertex (n,).
     """
     V, F = _as_mesh(V, F)
     if not 2 <= degree <= 4:
@@ -370,7 +394,20 @@ def angle_defect(V: np.ndarray, F: np.ndarray) -> np.ndarray:
 
 
 def gaussian_curvature(V: np.ndarray, F: np.ndarray) -> np.ndarray:
-    """(n,) Gaussian curvature, angle defect over mixed area (Meyer et al. 2003); NaN on open boundaries."""
+    """(n,) Gaussian curvature, angle defect over mixed area (Meyer et al. 2003); NaN on open boundaries.
+
+    Parameters
+    ----------
+    V : (n, 3) float
+        Vertex coordinates, part units.
+    F : (m, 3) int
+        Triangles, indices into V.
+
+    Returns
+    -------
+    (n,) float
+        Gaussian curvature, 1/unit^2.
+    """
     V, F = _as_mesh(V, F)
     with np.errstate(divide="ignore", invalid="ignore"):
         K = angle_defect(V, F) / mixed_areas(V, F)
@@ -383,6 +420,18 @@ def mean_curvature(V: np.ndarray, F: np.ndarray) -> np.ndarray:
 
     The mean-curvature normal is sum_j (cot a_ij + cot b_ij)(x_i - x_j) / (2 A_mixed) = 2 H n; its
     component along the angle-weighted normal gives the sign. NaN on open boundaries.
+
+    Parameters
+    ----------
+    V : (n, 3) float
+        Vertex coordinates, part units.
+    F : (m, 3) int
+        Triangles, indices into V, outward wound.
+
+    Returns
+    -------
+    (n,) float
+        Mean curvature, 1/unit.
     """
     V, F = _as_mesh(V, F)
     P = V[F]

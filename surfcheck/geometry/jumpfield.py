@@ -170,12 +170,46 @@ def jump_fields(
 def curvature_jump_field(
     V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4
 ) -> np.ndarray:
-    """(n,) largest jump of normal curvature across a cut through each vertex, 1/unit (jump_fields)."""
+    """(n,) largest jump of normal curvature across a cut through each vertex, 1/unit (jump_fields).
+
+    Parameters
+    ----------
+    V : (n, 3) float
+        Vertex coordinates, part units.
+    F : (m, 3) int
+        Triangles, indices into V.
+    radius : float, optional
+        One-sided fit radius, part units; None chooses the default radius.
+    directions : int
+        Cut directions tried through each vertex.
+
+    Returns
+    -------
+    (n,) float
+        Largest jump of normal curvature, 1/unit; NaN where a side has too few points.
+    """
     return jump_fields(V, F, radius, directions).curvature
 
 
 def tangent_jump_field(
     V: np.ndarray, F: np.ndarray, radius: float | None = None, directions: int = 4
 ) -> np.ndarray:
-    """(n,) largest angle between one-sided normals across a cut through each vertex, degrees."""
+    """(n,) largest angle between one-sided normals across a cut through each vertex, degrees.
+
+    Parameters
+    ----------
+    V : (n, 3) float
+        Vertex coordinates, part units.
+    F : (m, 3) int
+        Triangles, indices into V.
+    radius : float, optional
+        One-sided fit radius, part units; None chooses the default radius.
+    directions : int
+        Cut directions tried through each vertex.
+
+    Returns
+    -------
+    (n,) float
+        Largest angle between the one-sided normals, degrees; NaN where a side has too few points.
+    """
     return jump_fields(V, F, radius, directions).tangent

@@ -98,6 +98,16 @@ def load_profile(name_or_path: str | Path) -> ToleranceProfile:
     The file gives ``g0_gap, g1_angle, g2_abs, g2_rel, g3_abs, g3_rel`` and optionally ``coverage``,
     ``units``, ``name``, ``description``, ``origin``; ``base = "general"`` (or another name) fills in
     the figures the file leaves out.
+
+    Parameters
+    ----------
+    name_or_path : str or Path
+        A profile name or a TOML file.
+
+    Returns
+    -------
+    ToleranceProfile
+        The tolerances in their stated units.
     """
     text = str(name_or_path)
     if text in PROFILES:

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
 from surfcheck.segmentation.fillets import stations_along
@@ -368,9 +367,7 @@ def _absorbed_fragments(mesh: ScanMesh, label: np.ndarray, rounds: int = 3) -> n
     label = label.copy()
     A = mesh.adjacency.tocoo()
     for _ in range(rounds):
-        same = label[A.row] == label[A.col]
-        g = sp.csr_matrix((np.ones(int(same.sum())), (A.row[same], A.col[same])), shape=A.shape)
-        _, piece = connected_components(g, directed=False)
+        piece = mesh.label_components(label)
         area = np.bincount(piece, weights=mesh.areas)
         main = np.zeros(len(area), dtype=bool)
         for lab in np.unique(label):

@@ -70,6 +70,25 @@ class ScanMesh:
             limit = max(limit, np.radians(LOOSE_NORMAL_DEG))
         return near & (self.angle(model) < limit)
 
+    def label_components(self, label: np.ndarray) -> np.ndarray:
+        """Connected pieces of equal label.
+
+        Parameters
+        ----------
+        label : (m,) int or bool
+            A label per face.
+
+        Returns
+        -------
+        (m,) int
+            The piece of each face: faces share a piece when a path of edge-adjacent faces of their
+            label joins them.
+        """
+        A = self.adjacency.tocoo()
+        same = label[A.row] == label[A.col]
+        g = sp.csr_matrix((np.ones(int(same.sum())), (A.row[same], A.col[same])), shape=A.shape)
+        return connected_components(g, directed=False)[1]
+
     def cost(self, model: Primitive) -> np.ndarray:
         """(m,) squared distance and normal residuals of each face to the model, in noise units."""
         return (self.distance(model) / self.noise) ** 2 + (self.angle(model) / self.normal_noise) ** 2
@@ -280,10 +299,7 @@ def compete(mesh: ScanMesh, label: np.ndarray, models: list[Primitive], rings: i
 
 def largest_pieces(mesh: ScanMesh, label: np.ndarray) -> np.ndarray:
     """Keep, for each label, only its connected piece of largest area; the rest becomes -1."""
-    A = mesh.adjacency.tocoo()
-    same = (label[A.row] == label[A.col]) & (label[A.row] >= 0)
-    g = sp.csr_matrix((np.ones(int(same.sum())), (A.row[same], A.col[same])), shape=A.shape)
-    _, comp = connected_components(g, directed=False)
+    comp = mesh.label_components(label)
     out = label.copy()
     has = label >= 0
     comp_area = np.bincount(comp, weights=mesh.areas)
@@ -298,18 +314,10 @@ def largest_pieces(mesh: ScanMesh, label: np.ndarray) -> np.ndarray:
     return out
 
 
-def _leftover_components(mesh: ScanMesh, label: np.ndarray) -> tuple[int, np.ndarray]:
-    A = mesh.adjacency.tocoo()
-    free = label < 0
-    both = free[A.row] & free[A.col]
-    g = sp.csr_matrix((np.ones(int(both.sum())), (A.row[both], A.col[both])), shape=A.shape)
-    return connected_components(g, directed=False)
-
-
 def settle_leftovers(mesh: ScanMesh, label: np.ndarray, models: list[Primitive], min_area: float) -> tuple[np.ndarray, list[np.ndarray]]:
     """Absorb small or crease leftovers into their neighbours; return the freeform leftovers' faces."""
     label = label.copy()
-    _, comp = _leftover_components(mesh, label)
+    comp = mesh.label_components(label < 0)
     free = np.flatnonzero(label < 0)
     freeform = []
     if len(free) == 0:

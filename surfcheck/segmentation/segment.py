@@ -13,7 +13,6 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.csgraph import connected_components
 
 from surfcheck.segmentation.bands import band_pieces, refine_band_borders
 from surfcheck.errors import InputError
@@ -104,6 +103,18 @@ def segment_part(
     ``noise``: the noise level in part units (default: estimated from the fits); ``nominal_radius``:
     the fillet radius the bands' measured radii are compared with; ``min_face_area``: smaller regions
     are merged into their neighbours (default: a disc of twice the scale).
+
+    Parameters
+    ----------
+    part : Part
+        The unlabelled mesh.
+    scale, noise, nominal_radius, min_face_area : float, optional
+        As above, part units (area: units^2).
+
+    Returns
+    -------
+    Segmentation
+        The part with face groups, each group's primitive or "freeform", fillet radii and seams.
     """
     where = part.source or "part"
     mesh = prepare_mesh(part, scale, noise)
@@ -136,11 +147,8 @@ def _assemble(part, mesh, label, models, freeform, nominal_radius, rho) -> Segme
         regions_model.append(None)
     kinds = [m.kind if m is not None else "freeform" for m in regions_model]
     pieces = band_pieces(mesh, label, regions_model)
-    A = mesh.adjacency.tocoo()
     is_piece = pieces[label]
-    link = is_piece[A.row] & is_piece[A.col]
-    g = sp.csr_matrix((np.ones(int(link.sum())), (A.row[link], A.col[link])), shape=A.shape)
-    _, comp = connected_components(g, directed=False)
+    comp = mesh.label_components(is_piece)
     groups_faces: list[tuple[str, np.ndarray, Primitive | None]] = []
     consumed = np.zeros(len(kinds), dtype=bool)
     for c in np.unique(comp[is_piece]):

@@ -228,10 +228,6 @@ def test_transition_search_leaves_right_labels_alone():
         assert [g.achieved for g in found] == [EXPECTED[kind]] * len(found)
 
 
-@pytest.mark.xfail(strict=True, reason="known limit (docs/continuity.md, section 3): on a clean, correctly "
-                   "labelled circular fillet of radius 2 mm at 0.25 mm edges the search moves the line | arc split two edges "
-                   "into the arc, where two cubics fit a little better, and reads a false G1 failure; this is "
-                   "why the search is off by default and not offered on the command line")
 def test_transition_search_leaves_a_right_circular_fillet_alone():
     part = blend_part("fillet")
     seam = next(c for c in SeamIndex(part).seams if set(c.groups) == {"a", "blend"})

@@ -184,20 +184,21 @@ def fit_sides(section: Section, search: bool = False) -> StationSides:
         end_b = end_a
     else:
         data_a, data_b, end_a, end_b = section.side_a, section.side_b, section.end_a, section.end_b
-    h_a, h_b = section.scales
-    return StationSides(shift, data_a, data_b, fit_side(data_a, end_a, -1.0, h_a), fit_side(data_b, end_b, 1.0, h_b))
+    (h_a, h_b), (floor_a, floor_b) = section.scales, section.floors
+    return StationSides(shift, data_a, data_b, fit_side(data_a, end_a, -1.0, h_a, floor_a),
+                        fit_side(data_b, end_b, 1.0, h_b, floor_b))
 
 
 def grade_sides(section: Section, sides: StationSides, profile: ToleranceProfile) -> StationResult:
     """Grade G0..G3 at one station from both sides' estimates against the profile (part units)."""
     a, b = sides.a, sides.b
     k = profile.coverage
-    gap = float(np.linalg.norm(b.point - a.point))
     turn = (b.heading - a.heading + np.pi) % (2 * np.pi) - np.pi
-    # on a welded seam the common seam point lies off the curves by about the fits' offsets; where
-    # the tangents differ, that moves the two sides' points apart by offset * sin(angle)
-    off = max(abs(a.values[OFFSET]), abs(b.values[OFFSET])) * abs(np.sin(turn)) if section.welded else 0.0
-    u_gap = float(np.sqrt(a.variances[OFFSET] + b.variances[OFFSET] + off**2))
+    if section.welded:  # the sides share the seam's vertices: the mesh has no gap there, exactly
+        gap, u_gap = 0.0, 0.0
+    else:
+        gap = float(np.linalg.norm(b.point - a.point))
+        u_gap = float(np.sqrt(a.variances[OFFSET] + b.variances[OFFSET]))
     angle = float(np.degrees(abs(turn)))
     u_angle = float(np.degrees(np.hypot(a.uncertainty(HEADING), b.uncertainty(HEADING))))
     orders = [

@@ -25,6 +25,7 @@ from surfcheck.errors import InputError
 from surfcheck.part import Part
 from surfcheck.seams import Curve
 from surfcheck.polyline import cumulative_arc_length, ring
+from surfcheck.grading.surface_cut import SPLINE_POINTS, SurfaceCut, cut_side, spline_through
 
 STRIP_EDGES = 10.0  # default half-width of the strip along the seam, in typical edge lengths
 REACH_EDGES = 40.0  # default reach of the section data from the seam, in typical edge lengths
@@ -35,6 +36,7 @@ GEODESIC_SLACK = 1.3  # a side's point lies at most this many times farther alon
 MAX_SEAM_TURN = 0.5  # radians the seam may turn over its local fit (the fit narrows until it does not)
 FINER_SIDE = 0.5  # a side sampled across the seam closer than this many typical edge lengths is fitted on
 # its own scale (common practice, no published source)
+SPARSE_SIDE = 40  # a side whose strip gives fewer distinct section points is read from its surface
 _SEAM_FIT_DEGREE = 5
 
 
@@ -45,7 +47,8 @@ class Section:
     ``side_a``/``side_b`` are (n, 2) section coordinates of the strip vertices ``ids_a``/``ids_b``;
     ``end_a``/``end_b`` where each side's data meets the seam (the same point on a welded seam).
     ``edge`` is the typical edge length near the seam, ``scales`` each side's scale for its one-sided
-    fit (see side_spacings).
+    fit (see side_spacings) and ``floors`` the least standard deviation of its points (non-zero where a
+    sparse side was read from its triangles, surface_cut.py).
     """
 
     index: int
@@ -63,6 +66,7 @@ class Section:
     welded: bool
     edge: float
     scales: tuple[float, float]
+    floors: tuple[float, float] = (0.0, 0.0)
 
     def to_world(self, xy: np.ndarray) -> np.ndarray:
         """3D positions of section coordinates (n, 2) or (2,)."""
@@ -168,6 +172,7 @@ def cut_sections(
     border_b = None if welded else border_vertices(part, group_b)
     groups = (part.group_index(group_a), part.group_index(group_b))
     scales = side_spacings(part, seam, groups, h)
+    group_faces = [np.flatnonzero(part.face_group == g) for g in groups]
     sections = []
     for index, s in enumerate(positions):
         # along a tightly curved seam the strip narrows until the seam turns by MAX_STRIP_TURN over it
@@ -188,6 +193,12 @@ def cut_sections(
             # small loop the far side projects onto the station's tangent line, too)
             inside &= nearest_seam.offset(V[near], s) <= width + h
             mapped.append((near[inside], coords[inside]))
+        scale_of, floor_of = list(scales), [0.0, 0.0]
+        for side, faces in enumerate(group_faces):
+            cut = _sparse_side(part, faces, frame, *mapped[side], h, radius)
+            if cut is not None:
+                mapped[side] = (cut.vertices, cut.points)
+                scale_of[side], floor_of[side] = cut.scale, cut.floor
         (near_a, rel_a), (near_b, rel_b) = mapped
         if len(near_a) == 0 or len(near_b) == 0:
             continue
@@ -213,7 +224,8 @@ def cut_sections(
             end_b = pts[dist <= dist.min() + 0.5 * h].mean(axis=0)
         sections.append(Section(index, float(s), frame.origin, frame.tangent, normal, cross,
                                 xy_a[keep_a], xy_b[keep_b], near_a[keep_a], near_b[keep_b],
-                                end_a, end_b, welded, h, scales))
+                                end_a, end_b, welded, h, (scale_of[0], scale_of[1]),
+                                (floor_of[0], floor_of[1])))
     return sections
 
 
@@ -334,6 +346,25 @@ class _SeamLocator:
             return np.zeros(0)
         delta = np.abs(self.arc[self.tree.query(points)[1]] - s)
         return np.minimum(delta, self.length - delta) if self.closed else delta
+
+
+def _sparse_side(part: Part, faces: np.ndarray, frame: "_SeamFrame", ids: np.ndarray, rel: np.ndarray, h: float,
+                 radius: float) -> SurfaceCut | None:
+    """A side's data read from the surface where its carried strip (vertices ``ids`` at ``rel``) has
+    fewer than SPARSE_SIDE distinct section points: where they line up along one curve (the rows of a CAD
+    strip of long triangles), the spline through them; where there are too few for that (a plane
+    without interior vertices), the cut of the side's triangles ``faces``. None where the strip serves."""
+    resolution = 1e-3 * h
+    in_plane = np.abs(rel @ frame.tangent) <= resolution
+    ids, rel = ids[in_plane], rel[in_plane]
+    distinct = len(np.unique(np.round(rel / resolution), axis=0)) if len(rel) else 0
+    if distinct >= SPARSE_SIDE:
+        return None
+    if distinct >= SPLINE_POINTS:
+        spline = spline_through(ids, rel, resolution, frame.tangent)
+        # scattered vertices (an irregular or noisy mesh) are no curve to interpolate: the fit takes them
+        return spline if spline is not None else None
+    return cut_side(part, faces, frame.origin, frame.tangent, radius)
 
 
 def _path_lengths(part: Part, vertices: np.ndarray, origin: np.ndarray, limit: float) -> np.ndarray:

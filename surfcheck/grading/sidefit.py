@@ -40,6 +40,8 @@ MIN_DEGREE = (2, 2, 3, 3)  # lowest degree for offset, heading (2) and curvature
 MIN_WINDOW_EDGES = 3.0
 WINDOW_GROWTH = 1.3
 MIN_DOF = 4  # a fit needs this many points more than coefficients
+SPREAD_BINS = 50  # ... and one more distinct abscissa than coefficients, told apart at 1/SPREAD_BINS of
+# the window (points bunched at a few places, e.g. a CAD strip's seam vertices, determine no polynomial)
 NOISE_POINTS = 40  # points in the window that gives a side's noise level
 MAX_SLOPE = 0.3  # heights over a side's own reference are flatter than this at the seam (17 deg)
 MAX_TILT = 1.0  # ... and than this (45 deg) across the window
@@ -105,7 +107,7 @@ class Fits:
 def polynomial_fits(t: np.ndarray, w: np.ndarray, windows: np.ndarray, max_degree: int, noise: float = 0.0,
                     inside: np.ndarray | None = None) -> Fits:
     """Least-squares fits w ~ sum b_j t^j of every degree 0..max_degree on each window |t| <= W
-    (and ``inside``), batched: one QR factorisation of the scaled Vandermonde matrix per window (rows
+    (and ``inside``) holding enough distinct abscissae (SPREAD_BINS), batched: one QR factorisation of the scaled Vandermonde matrix per window (rows
     outside a window weigh zero), every degree from its leading block (the inverse of a leading block
     of a triangular matrix is the leading block of its inverse)."""
     windows = np.atleast_1d(np.asarray(windows, dtype=float))
@@ -123,7 +125,8 @@ def polynomial_fits(t: np.ndarray, w: np.ndarray, windows: np.ndarray, max_degre
     rss = (resid**2).sum(axis=1)[:, None] + np.concatenate([tail[:, 1:], np.zeros((len(windows), 1))], axis=1)
     diag = np.abs(np.diagonal(R, axis1=1, axis2=2))
     full_rank = np.minimum.accumulate(diag, axis=1) >= 1e-9 * np.maximum(diag[:, :1], 1e-300)
-    ok = (count[:, None] >= np.arange(1, P + 1) + MIN_DOF) & full_rank
+    spread = np.array([len(np.unique(np.floor(t[m] / W * SPREAD_BINS))) for m, W in zip(mask, windows)])
+    ok = (count[:, None] >= np.arange(1, P + 1) + MIN_DOF) & (spread[:, None] >= np.arange(2, P + 2)) & full_rank
     R = R + np.eye(P) * np.where(full_rank, 0.0, 1.0)[:, None, :]  # unused degrees: keep R invertible
     Rinv = np.triu(np.linalg.inv(R))
     lower = np.tri(P, dtype=bool)  # lower[d, i]: coefficient i belongs to degree d's fit
@@ -243,8 +246,9 @@ def _clothoid(s: np.ndarray, k0: float, k1: float) -> tuple[np.ndarray, np.ndarr
 class _Side:
     """One side's data as heights over a reference, and its fits."""
 
-    def __init__(self, points: np.ndarray, end: np.ndarray, sign: float, h: float, ref: Reference) -> None:
-        self.ref, self.h, self.sign = ref, h, sign
+    def __init__(self, points: np.ndarray, end: np.ndarray, sign: float, h: float, ref: Reference,
+                 floor: float = 0.0) -> None:
+        self.ref, self.h, self.sign, self.floor = ref, h, sign, floor
         self.t, self.w = heights(points - end, ref)
         self.on_side = sign * self.t >= -0.5 * h
         self.reach = float(np.abs(self.t[self.on_side]).max()) if self.on_side.any() else 0.0
@@ -281,20 +285,22 @@ class _Side:
         over-fitted on few points) use this instead."""
         t = np.abs(self.t[self.on_side])
         if len(t) < NOISE_POINTS:
-            return 0.0
+            return self.floor
         window = max(w_min, float(np.sort(t)[NOISE_POINTS - 1]))
         f = polynomial_fits(self.t, self.w, window, DEGREES[-1], inside=self.on_side)
-        return float(np.sqrt(f.sigma2[0, -1])) if f.ok[0, -1] else 0.0
+        return max(float(np.sqrt(f.sigma2[0, -1])) if f.ok[0, -1] else 0.0, self.floor)
 
 
-def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float) -> SideEstimate:
+def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float, floor: float = 0.0) -> SideEstimate:
     """One-sided estimate of a side at its seam point ``end``: ``sign`` -1 for side A (its data lies
-    before the seam), +1 for side B; ``h`` the typical edge length. See the module docstring."""
+    before the seam), +1 for side B; ``h`` the typical edge length; ``floor`` the least standard
+    deviation of a point about the section curve (for data interpolated between mesh points, which
+    shows no residual of its own). See the module docstring."""
     end = np.asarray(end, dtype=float)
     if len(points) < NOISE_POINTS // 4:
         return _unresolved(end, len(points))
     ref = Reference(initial_reference(points, end, sign, h).direction)
-    side = _Side(points, end, sign, h, ref)
+    side = _Side(points, end, sign, h, ref, floor)
     est = _estimate(side, len(points), end)
     for _ in range(REFERENCE_ITERATIONS):
         if not np.isfinite(est.variances[HEADING:RATE]).all():
@@ -302,7 +308,7 @@ def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float) -> Side
         new = _reference_from(est, side.reach)
         u_k0, u_k1 = est.uncertainty(CURVATURE), est.uncertainty(RATE)
         converged = abs(new.k0 - ref.k0) <= 0.1 * u_k0 + 1e-12 and abs(new.k1 - ref.k1) <= 0.1 * u_k1 + 1e-12
-        new_side = _Side(points, end, sign, h, new)
+        new_side = _Side(points, end, sign, h, new, floor)
         new_est = _estimate(new_side, len(points), end)
         if not np.isfinite(new_est.variances[HEADING:RATE]).all():
             break  # keep the last reference that gave an estimate
@@ -310,8 +316,8 @@ def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float) -> Side
         if converged:
             break
     est = _with_reference_noise(est, points, end, sign, h, ref)
-    floor = (ROUNDING * np.array([h, 1.0, 1.0 / h, 1.0 / h**2])) ** 2
-    return replace(est, variances=np.maximum(est.variances, floor))
+    rounding = (ROUNDING * np.array([h, 1.0, 1.0 / h, 1.0 / h**2])) ** 2
+    return replace(est, variances=np.maximum(est.variances, rounding))
 
 
 def _reference_from(est: SideEstimate, reach: float) -> Reference:

@@ -1,0 +1,168 @@
+"""A side's section read from its triangles: the cut of the side's surface by the section plane.
+
+A CAD mesher leaves a plane without interior vertices and a fillet as one strip of long triangles, so
+a strip of a side's vertices holds a handful of distinct section points, too few for a one-sided fit.
+The triangles themselves describe the surface: the section plane (through the station, normal to the
+seam tangent) cuts each triangle it crosses in a segment whose ends lie on two of its edges, and the
+segments chain, through the edges they share, into the section polyline of the side (the classical
+plane-mesh intersection, e.g. Botsch et al. 2010, Polygon Mesh Processing, ch. 1). Its component
+through the seam is sampled evenly. On a planar triangle the polyline is exact; on a curved surface a
+segment is a chord, off the surface by at most its sagitta c^2 kappa / 8 (chord c, curvature kappa),
+the chordal deflection a CAD mesher bounds.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
+
+from surfcheck.part import Part
+
+SAMPLES_PER_SEGMENT = 8  # even samples along a typical cut segment (common practice, no published source)
+MIN_SAMPLES = 64  # samples of one side's cut at least (a plane is one long segment)
+MAX_SAMPLES = 2000  # ... and at most
+SPLINE_POINTS = 6  # distinct vertices a side needs to be interpolated rather than cut
+ZIGZAG_TURN = 0.02  # radians; a turn of the node polygon smaller than this has no direction
+CUT_WINDOW_SEGMENTS = 2.0  # fit scale of a cut side, in mean segments: its windows (3 scales) average
+# over the chords' kinks
+SPLINE_WINDOW_NODES = 0.5  # fit scale of an interpolated side, in node spacings (the spline is smooth)
+# (both common practice, no published source: chosen on kernel tessellations of rolling-ball fillets)
+
+
+@dataclass(frozen=True)
+class SurfaceCut:
+    """Samples of a side's section curve (relative to the seam point), the nearest vertex of each
+    sample, the scale of the side's one-sided fit (its smallest window is three of them) and the
+    floor of its points' standard deviation about the curve (sidefit.fit_side's ``floor``).
+
+    Samples interpolated between mesh points show no residual of their own, and many of them come
+    from one mesh point's worth of information, so the floor is that of the mesh points times the
+    square root of the samples per mesh point."""
+
+    points: np.ndarray  # (n, 3)
+    vertices: np.ndarray  # (n,) int
+    scale: float
+    floor: float
+
+
+def cut_side(part: Part, faces: np.ndarray, origin: np.ndarray, plane_normal: np.ndarray,
+             reach: float) -> SurfaceCut | None:
+    """The cut of the triangles ``faces`` by the plane through ``origin`` normal to ``plane_normal``:
+    its connected polyline through the point nearest ``origin``, within ``reach`` of it, sampled
+    about SAMPLES_PER_SEGMENT times per typical segment. None where the plane misses the faces."""
+    V, F = part.vertices, part.faces[faces]
+    d = (V[F] - origin) @ plane_normal  # (m, 3) signed distances of the corners
+    above = d >= 0.0  # a corner on the plane counts as above: each crossing is on one edge
+    crossed = above.any(axis=1) & ~above.all(axis=1)
+    if not crossed.any():
+        return None
+    F, d, above = F[crossed], d[crossed], above[crossed]
+    edge_ids = part.half_edge_edge.reshape(-1, 3)[faces[crossed]]  # edges (0-1, 1-2, 2-0)
+    changes = above != np.roll(above, -1, axis=1)  # exactly two per crossed triangle
+    segment_edges = edge_ids[changes].reshape(-1, 2)
+    corner = np.nonzero(changes)[1].reshape(-1, 2)
+    rows = np.arange(len(F))[:, None]
+    start, end = F[rows, corner], F[rows, (corner + 1) % 3]
+    t = d[rows, corner] / (d[rows, corner] - d[rows, (corner + 1) % 3])
+    ends = V[start] + t[..., None] * (V[end] - V[start])  # (k, 2, 3) segment end points
+    nodes, links = np.unique(segment_edges, return_inverse=True)
+    links = links.reshape(-1, 2)
+    node_point = np.empty((len(nodes), 3))
+    node_point[links.ravel()] = ends.reshape(-1, 3)
+    graph = sp.coo_matrix((np.ones(len(links)), (links[:, 0], links[:, 1])), shape=(len(nodes),) * 2)
+    _, component = connected_components(graph, directed=False)
+    seed = int(np.argmin(np.linalg.norm(node_point - origin, axis=1)))
+    keep = component[links[:, 0]] == component[seed]
+    keep &= (np.linalg.norm(ends - origin, axis=2) <= reach).any(axis=1)
+    if not keep.any():
+        return None
+    ends, F = ends[keep], F[keep]
+    lengths = np.linalg.norm(ends[:, 1] - ends[:, 0], axis=1)
+    scale = float(lengths.mean())  # the mean: a plane through a vertex leaves slivers of segments
+    total = min(float(lengths.sum()), reach)
+    spacing = max(min(scale / SAMPLES_PER_SEGMENT, total / MIN_SAMPLES), total / MAX_SAMPLES, 1e-12)
+    counts = np.maximum(np.ceil(lengths / spacing).astype(int), 1)
+    owner = np.repeat(np.arange(len(ends)), counts)
+    fraction = (np.arange(len(owner)) - np.repeat(np.cumsum(counts) - counts, counts)) / counts[owner]
+    points = ends[owner, 0] + fraction[:, None] * (ends[owner, 1] - ends[owner, 0])
+    points = np.concatenate([points, ends[:, 1]])
+    owner = np.concatenate([owner, np.arange(len(ends))])
+    points, first = np.unique(np.round(points, 12), axis=0, return_index=True)
+    owner = owner[first]
+    inside = np.linalg.norm(points - origin, axis=1) <= reach
+    corners = V[F[owner]]  # (n, 3, 3)
+    nearest = np.argmin(np.linalg.norm(corners - points[:, None], axis=2), axis=1)
+    vertices = F[owner, nearest]
+    # a chord's points lie within its sagitta of the surface: a rectangular distribution of that
+    # half-width (JCGM 100:2008, 4.3.7), inflated for the samples that share one chord
+    floor = _largest_sagitta(ends, lengths) / np.sqrt(3.0) * np.sqrt(SAMPLES_PER_SEGMENT)
+    return SurfaceCut(points[inside] - origin, vertices[inside], CUT_WINDOW_SEGMENTS * scale, floor)
+
+
+def _largest_sagitta(ends: np.ndarray, lengths: np.ndarray) -> float:
+    """Largest c^2 kappa / 8 over the segments, kappa the turning between segments that share an end
+    point divided by their mean length (the discrete curvature of a polygon)."""
+    if len(ends) < 2:
+        return 0.0
+    flat = np.round(ends.reshape(-1, 3), 12)
+    _, node = np.unique(flat, axis=0, return_inverse=True)
+    node = node.reshape(-1, 2)
+    direction = (ends[:, 1] - ends[:, 0]) / np.maximum(lengths, 1e-300)[:, None]
+    worst = 0.0
+    for end in (0, 1):
+        for other in (0, 1):
+            i, j = np.nonzero(node[:, end][:, None] == node[:, other][None, :])
+            pick = i < j
+            i, j = i[pick], j[pick]
+            if len(i) == 0:
+                continue
+            cos = np.abs(np.einsum("ij,ij->i", direction[i], direction[j]))
+            kappa = np.arccos(np.clip(cos, -1.0, 1.0)) / (0.5 * (lengths[i] + lengths[j]))
+            worst = max(worst, float((np.maximum(lengths[i], lengths[j]) ** 2 * kappa).max() / 8.0))
+    return worst
+
+
+def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np.ndarray) -> SurfaceCut | None:
+    """A side given by few distinct vertices (a CAD strip: every row of a long-triangle fillet carried
+    into the section lands on the same few points, each on the surface): the interpolating cubic
+    spline through its distinct points (to ``resolution``), ordered by distance from the seam point and
+    parametrised by chord length (de Boor 1978, A Practical Guide to Splines, ch. IV, not-a-knot ends),
+    sampled evenly. ``rel``: (n, 3) positions relative to the seam point in the plane normal to
+    ``axis``. None below SPLINE_POINTS distinct points, where the points start farther from the seam
+    point than two of their spacings, or where they zigzag (the polygon through them turns to and fro
+    more than once by over ZIGZAG_TURN: scattered points, not one curve)."""
+    from scipy.interpolate import CubicSpline
+
+    _, first, bin_of = np.unique(np.round(rel / resolution), axis=0, return_index=True, return_inverse=True)
+    bin_of = bin_of.reshape(-1)
+    scatter = rel - rel[first][bin_of]  # points carried onto one place differ by the carry's error and noise
+    order = first[np.argsort(np.linalg.norm(rel[first], axis=1))]
+    nodes = rel[order]
+    gaps = np.linalg.norm(np.diff(nodes, axis=0), axis=1)
+    if np.linalg.norm(nodes[0]) > resolution:  # the seam point itself is a node of the section
+        if len(gaps) == 0 or np.linalg.norm(nodes[0]) > 2.0 * np.median(gaps):
+            return None
+        nodes = np.concatenate([np.zeros((1, 3)), nodes])
+    if len(nodes) < SPLINE_POINTS or _zigzags(nodes, axis):
+        return None
+    chord = np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(nodes, axis=0), axis=1))])
+    spline = CubicSpline(chord, nodes, axis=0, bc_type="not-a-knot")
+    samples = min(max(MIN_SAMPLES, SAMPLES_PER_SEGMENT * (len(nodes) - 1)), MAX_SAMPLES)
+    points = spline(np.linspace(0.0, chord[-1], samples))
+    nearest = np.argmin(np.linalg.norm(points[:, None] - rel[None, order], axis=2), axis=1)
+    spread = float(np.sqrt((scatter**2).sum(axis=1).mean()))
+    return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * float(chord[-1] / (len(nodes) - 1)),
+                      spread * np.sqrt(samples / len(nodes)))
+
+
+def _zigzags(nodes: np.ndarray, axis: np.ndarray) -> bool:
+    """Whether the polygon through ``nodes`` (in the plane normal to ``axis``) changes its turning
+    direction more than once (a section curve has at most one inflection near a seam)."""
+    chords = np.diff(nodes, axis=0)
+    chords /= np.maximum(np.linalg.norm(chords, axis=1), 1e-300)[:, None]
+    turn = np.arctan2(np.cross(chords[:-1], chords[1:]) @ axis, np.einsum("ij,ij->i", chords[:-1], chords[1:]))
+    signs = np.sign(turn[np.abs(turn) > ZIGZAG_TURN])
+    return int((signs[1:] != signs[:-1]).sum()) > 1

@@ -262,7 +262,9 @@ class _SeamFrame:
         cw = np.cross(w, offset)
         carried = offset + cw + np.cross(w, cw) / (1.0 + t @ self.tangent)[:, None]
         lo, hi = self.span
-        beside = (tau > lo) & (tau < hi) & (np.abs(np.einsum("ij,ij->i", offset, t)) <= 1e-6 * self.scale)
+        # a foot clipped to the span's end is no foot (its offset is not normal to the seam) unless the
+        # point lies beside the end itself, as the vertices of a CAD strip's long triangles do
+        beside = (tau >= lo) & (tau <= hi) & (np.abs(np.einsum("ij,ij->i", offset, t)) <= 1e-6 * self.scale)
         return carried, tau * speed, beside
 
 

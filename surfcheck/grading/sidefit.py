@@ -40,8 +40,8 @@ MIN_DEGREE = (2, 2, 3, 3)  # lowest degree for offset, heading (2) and curvature
 MIN_WINDOW_EDGES = 3.0
 WINDOW_GROWTH = 1.3
 MIN_DOF = 4  # a fit needs this many points more than coefficients
-SPREAD_BINS = 50  # ... and one more distinct abscissa than coefficients, told apart at 1/SPREAD_BINS of
-# the window (points bunched at a few places, e.g. a CAD strip's seam vertices, determine no polynomial)
+SPREAD_BINS = 50  # ... and as many distinct abscissae as coefficients, told apart at 1/SPREAD_BINS of the
+# window (points bunched at a few places, e.g. a CAD strip's seam vertices, determine no polynomial)
 NOISE_POINTS = 40  # points in the window that gives a side's noise level
 MAX_SLOPE = 0.3  # heights over a side's own reference are flatter than this at the seam (17 deg)
 MAX_TILT = 1.0  # ... and than this (45 deg) across the window
@@ -126,7 +126,7 @@ def polynomial_fits(t: np.ndarray, w: np.ndarray, windows: np.ndarray, max_degre
     diag = np.abs(np.diagonal(R, axis1=1, axis2=2))
     full_rank = np.minimum.accumulate(diag, axis=1) >= 1e-9 * np.maximum(diag[:, :1], 1e-300)
     spread = np.array([len(np.unique(np.floor(t[m] / W * SPREAD_BINS))) for m, W in zip(mask, windows)])
-    ok = (count[:, None] >= np.arange(1, P + 1) + MIN_DOF) & (spread[:, None] >= np.arange(2, P + 2)) & full_rank
+    ok = (count[:, None] >= np.arange(1, P + 1) + MIN_DOF) & (spread[:, None] >= np.arange(1, P + 1)) & full_rank
     R = R + np.eye(P) * np.where(full_rank, 0.0, 1.0)[:, None, :]  # unused degrees: keep R invertible
     Rinv = np.triu(np.linalg.inv(R))
     lower = np.tri(P, dtype=bool)  # lower[d, i]: coefficient i belongs to degree d's fit

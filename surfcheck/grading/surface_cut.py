@@ -24,7 +24,7 @@ from surfcheck.part import Part
 SAMPLES_PER_SEGMENT = 8  # even samples along a typical cut segment (common practice, no published source)
 MIN_SAMPLES = 64  # samples of one side's cut at least (a plane is one long segment)
 MAX_SAMPLES = 2000  # ... and at most
-SPLINE_POINTS = 6  # distinct vertices a side needs to be interpolated rather than cut
+SPLINE_POINTS = 4  # distinct vertices a side needs to be interpolated rather than cut
 ZIGZAG_TURN = 0.02  # radians; a turn of the node polygon smaller than this has no direction
 CUT_WINDOW_SEGMENTS = 2.0  # fit scale of a cut side, in mean segments: its windows (3 scales) average
 # over the chords' kinks
@@ -154,6 +154,14 @@ def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np
     points = spline(np.linspace(0.0, chord[-1], samples))
     nearest = np.argmin(np.linalg.norm(points[:, None] - rel[None, order], axis=2), axis=1)
     spread = float(np.sqrt((scatter**2).sum(axis=1).mean()))
+    # the interpolation error, from the spline through every other node: a cubic spline's error goes
+    # as the fourth power of the spacing, so the coarser one's is about 15 times the finer one's
+    # (Richardson's estimate; de Boor 1978, ch. V, the error of complete cubic spline interpolation)
+    coarse = np.r_[0:len(nodes):2, len(nodes) - 1] if len(nodes) % 2 == 0 else np.r_[0:len(nodes):2]
+    if len(coarse) >= 4:
+        fine_at = spline(chord)
+        coarse_at = CubicSpline(chord[coarse], nodes[coarse], axis=0, bc_type="not-a-knot")(chord)
+        spread = max(spread, float(np.sqrt(((fine_at - coarse_at) ** 2).sum(axis=1).mean())) / 15.0)
     return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * float(chord[-1] / (len(nodes) - 1)),
                       spread * np.sqrt(samples / len(nodes)))
 

@@ -161,8 +161,9 @@ def boundary_loops(part: Part) -> list[Curve]:
     paths = _walk_paths(half)
     groups_of = _boundary_vertex_groups(part)
     found = []
+    forward = set(map(tuple, half.tolist()))  # built once: per path it made the walk quadratic
     for vertices, closed in paths:
-        vertices = _orient_like(vertices, half, closed)
+        vertices = _orient_like(vertices, forward, closed)
         found.append((vertices, closed))
     found.sort(key=lambda item: (-polyline_length(part.vertices[item[0]], item[1]), int(item[0].min())))
     return [
@@ -171,11 +172,10 @@ def boundary_loops(part: Part) -> list[Curve]:
     ]
 
 
-def _orient_like(vertices: np.ndarray, half: np.ndarray, closed: bool) -> np.ndarray:
-    """Reverse a path if it runs against the directed boundary half edges; start a loop at its
-    smallest vertex index so ids and starts are stable."""
+def _orient_like(vertices: np.ndarray, forward: set[tuple[int, int]], closed: bool) -> np.ndarray:
+    """Reverse a path if it runs against the directed boundary half edges ``forward``; start a loop
+    at its smallest vertex index so ids and starts are stable."""
     if len(vertices) >= 2:
-        forward = set(map(tuple, half.tolist()))
         if (int(vertices[0]), int(vertices[1])) not in forward:
             vertices = vertices[::-1]
     if closed:

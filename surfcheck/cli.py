@@ -396,6 +396,10 @@ def map_field(
     else:
         save_vertex_field(loaded.part, field.values, quantity, out_file)
     finite = field.values[np.isfinite(field.values)]
+    if len(finite) == 0:
+        console.print(f"{quantity} [{field.unit}]: no vertex has a value (too few neighbours on this part);"
+                      f" written to {out_file}")
+        return
     console.print(f"{quantity} [{field.unit}]: median {np.median(finite):.4g}, 2nd-98th percentile"
                   f" {np.percentile(finite, 2):.4g} .. {np.percentile(finite, 98):.4g}; written to {out_file}")
 

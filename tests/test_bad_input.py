@@ -162,3 +162,14 @@ def test_fuzzed_files_load_or_raise_input_error(tmp_path, kind, data):
         assert "\n" not in str(exc)
     else:
         assert np.isfinite(part.vertices).all() and part.n_faces > 0
+
+
+def test_a_field_without_values_is_said_not_crashed(tmp_path):
+    # a tetrahedron (4 vertices) leaves no vertex enough neighbours for a one-sided jump fit: the map
+    # is written (all NaN) and the command says so instead of failing on an empty percentile
+    part = tmp_path / "tet.obj"
+    part.write_text("v 0 0 0\nv 1 0 0\nv 0 1 0\nv 0 0 1\nf 1 3 2\nf 1 2 4\nf 2 3 4\nf 1 4 3\n")
+    result = run_cli("map", str(part), "--quantity", "jump", "--out", str(tmp_path / "tet.csv"))
+    assert result.returncode == 0, result.stderr
+    assert "no vertex has a value" in result.stdout
+    assert (tmp_path / "tet.csv").exists()

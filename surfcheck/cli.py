@@ -29,8 +29,9 @@ app = typer.Typer(
 )
 console = Console(highlight=False, width=None if sys.stdout.isatty() else 140)
 
-PART_ARG = typer.Argument(..., help="Mesh file: .stl (ASCII or binary), .obj (g/o groups) or .ply.")
+PART_ARG = typer.Argument(..., help="Part file: .stl (ASCII or binary), .obj (g/o groups), .ply or .step/.stp (B-rep).")
 UNITS_OPT = typer.Option("mm", "--units", help="Length unit of the file's coordinates.")
+DEFLECTION_OPT = typer.Option(None, "--deflection", help="STEP input: chordal deflection of the tessellation, in part units (default from the part's size).")
 JSON_OPT = typer.Option(False, "--json", help="Print one JSON document to stdout and nothing else.")
 
 
@@ -52,9 +53,10 @@ def _groups(names: list[str]) -> str:
 
 
 @app.command()
-def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT) -> None:
+def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT,
+            deflection: Optional[float] = DEFLECTION_OPT) -> None:
     """Size, groups, boundaries, edge lengths and defects of a part."""
-    loaded = read_part(part, units=units)
+    loaded = read_part(part, units=units, deflection=deflection)
     summary = part_summary(loaded)
     if as_json:
         print_json(summary)
@@ -81,9 +83,10 @@ def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_
 
 
 @app.command()
-def loops(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT) -> None:
+def loops(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT,
+          deflection: Optional[float] = DEFLECTION_OPT) -> None:
     """Every boundary loop, boundary chain and group seam, with the ids other commands take."""
-    index = SeamIndex(read_part(part, units=units).part)
+    index = SeamIndex(read_part(part, units=units, deflection=deflection).part)
     document = {
         "loops": [c.to_dict() for c in index.loops],
         "chains": [c.to_dict() for c in index.chains],
@@ -157,6 +160,7 @@ def grade(
     stations: Optional[int] = STATIONS_OPT,
     spacing: Optional[float] = SPACING_OPT,
     units: str = UNITS_OPT,
+    deflection: Optional[float] = DEFLECTION_OPT,
     as_json: bool = JSON_OPT,
     report_dir: Optional[Path] = typer.Option(None, "--report", help="Also write the review page (index.html, pictures, result.json) to this folder."),
     nominal: Optional[Path] = NOMINAL_OPT,
@@ -178,8 +182,8 @@ def grade(
         from surfcheck.review.folder import check_folder, write_report
 
         check_folder(report_dir)
-    loaded = read_part(part, units=units)
-    reference = read_part(nominal, units=units).part if nominal is not None else None
+    loaded = read_part(part, units=units, deflection=deflection)
+    reference = read_part(nominal, units=units, deflection=deflection).part if nominal is not None else None
     chosen = select_seams(loaded.part, list(seam), reference)
     run = grade_part(chosen.part, chosen.seams, profile, GradeOptions(stations, spacing, strip, reach, search),
                      progress=lambda seams: _progress(seams, "grading seams", quiet=as_json))
@@ -209,13 +213,14 @@ def report(
     stations: Optional[int] = STATIONS_OPT,
     spacing: Optional[float] = SPACING_OPT,
     units: str = UNITS_OPT,
+    deflection: Optional[float] = DEFLECTION_OPT,
     nominal: Optional[Path] = NOMINAL_OPT,
     strip: Optional[float] = STRIP_OPT,
     reach: Optional[float] = REACH_OPT,
     search: bool = SEARCH_OPT,
 ) -> None:
     """Grade seams and write a review page with pictures and plots (DIR/index.html, DIR/result.json)."""
-    grade(part, seam, tolerance, require, stations, spacing, units, as_json=False, report_dir=out, nominal=nominal,
+    grade(part, seam, tolerance, require, stations, spacing, units, deflection=deflection, as_json=False, report_dir=out, nominal=nominal,
           strip=strip, reach=reach, search=search)
 
 
@@ -232,6 +237,7 @@ def blend(
     merged_file: Optional[Path] = typer.Option(None, "--merged", help="Write part(s) + patch, welded, as one grouped file."),
     tolerance: str = TOLERANCE_OPT,
     units: str = UNITS_OPT,
+    deflection: Optional[float] = DEFLECTION_OPT,
     as_json: bool = JSON_OPT,
 ) -> None:
     """Build a blend patch of order K between two boundary chains and grade its two new seams."""
@@ -243,8 +249,8 @@ def blend(
     if len(parts) not in (1, 2):
         raise InputError("blend takes PART, or PART_A PART_B")
     profile = load_profile(tolerance)
-    part_a = read_part(parts[0], units=units).part
-    part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units).part
+    part_a = read_part(parts[0], units=units, deflection=deflection).part
+    part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units, deflection=deflection).part
     chain_a = _one_chain(SeamIndex(part_a), chain_from, parts[0])
     chain_b = _one_chain(SeamIndex(part_b), chain_to, parts[-1])
     result = build_blend(part_a, chain_a, part_b, chain_b, order, step, span, resolution)
@@ -277,6 +283,7 @@ def segment(
     out_file: Path = typer.Option(..., "--out", help="Labelled part to write: .obj (groups) or .ply (group property)."),
     radius: Optional[float] = typer.Option(None, "--radius", help="Nominal fillet radius to compare each band with."),
     units: str = UNITS_OPT,
+    deflection: Optional[float] = DEFLECTION_OPT,
     as_json: bool = JSON_OPT,
 ) -> None:
     """Split an unlabelled part (a scan) into faces (plane, cylinder, sphere, cone, torus, freeform)
@@ -286,7 +293,7 @@ def segment(
 
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
-    loaded = read_part(part, units=units)
+    loaded = read_part(part, units=units, deflection=deflection)
     segmentation = segment_part(loaded.part, nominal_radius=radius)
     save_part(segmentation.part, out_file)
     document = segmentation.to_json()
@@ -330,6 +337,7 @@ def transfer(
     scan: Path = typer.Argument(..., help="The scanned part, without groups."),
     out_file: Path = typer.Option(..., "--out", help="Labelled scan to write: .obj or .ply."),
     units: str = UNITS_OPT,
+    deflection: Optional[float] = DEFLECTION_OPT,
     as_json: bool = JSON_OPT,
 ) -> None:
     """Align a scan to its nominal part (principal axes, then ICP) and give each scan triangle the group
@@ -339,10 +347,10 @@ def transfer(
 
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
-    reference = read_part(nominal, units=units).part
+    reference = read_part(nominal, units=units, deflection=deflection).part
     if len(reference.group_names) < 2:
         raise InputError(f"{nominal}: the nominal part has no face groups to carry over")
-    measured = read_part(scan, units=units).part
+    measured = read_part(scan, units=units, deflection=deflection).part
     alignment = align(measured, reference)
     labelled = transfer_groups(reference, measured, alignment)
     save_part(labelled, out_file)
@@ -378,6 +386,7 @@ def map_field(
     quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean, gaussian, jump or tangent-jump."),
     out_file: Path = typer.Option(..., "--out", help="Output: .ply (vertex property), .csv or .png (heatmap)."),
     units: str = UNITS_OPT,
+    deflection: Optional[float] = DEFLECTION_OPT,
 ) -> None:
     """Write a per-vertex field of a part as PLY, CSV or a PNG heatmap."""
     from surfcheck.geometry.fields import vertex_field
@@ -386,7 +395,7 @@ def map_field(
     suffix = out_file.suffix.lower()
     if suffix not in (".ply", ".csv", ".png"):
         raise InputError(f"{out_file}: give --out a .ply, .csv or .png name")
-    loaded = read_part(part, units=units)
+    loaded = read_part(part, units=units, deflection=deflection)
     field = vertex_field(loaded.part, quantity)
     if suffix == ".png":
         from surfcheck.review.render import render_field

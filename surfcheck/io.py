@@ -1,4 +1,5 @@
-"""Reading and writing parts: STL (ASCII and binary), OBJ (g/o groups), PLY (ASCII and binary).
+"""Reading and writing parts: STL (ASCII and binary), OBJ (g/o groups), PLY (ASCII and binary); STEP
+is read through cad/ (one group per B-rep face, tessellated within a chordal deflection).
 
 trimesh parses STL and PLY; OBJ is read here because its group records must become face groups on
 one shared vertex array. Every reader checks the file before parsing, so a truncated, garbage or
@@ -23,7 +24,8 @@ from surfcheck.errors import InputError
 from surfcheck.part import Part, check_mesh_arrays
 from surfcheck.validation import clean_faces, fatal_defects
 
-FORMATS = (".stl", ".obj", ".ply")
+FORMATS = (".stl", ".obj", ".ply", ".step", ".stp")
+STEP_FORMATS = (".step", ".stp")
 WELD_RELATIVE_TOLERANCE = 1e-7  # of the bounding-box diagonal; common practice, no published source
 GROUP_PROPERTIES = ("group", "label", "face_group", "region", "patch")
 
@@ -43,39 +45,46 @@ class LoadResult:
     part: Part
     merged_vertices: int = 0
     warnings: list[str] = field(default_factory=list)
+    brep: object | None = None  # cad.step.Brep the part was tessellated from (STEP input), else None
 
 
-def load_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> Part:
+def load_part(path: str | os.PathLike, units: str = "mm", weld: bool = True,
+              deflection: float | None = None) -> Part:
     """Read a mesh file into a Part (duplicate vertices welded). InputError on unusable input.
 
     Parameters
     ----------
     path : str or PathLike
-        An .stl (binary or ASCII), .obj or .ply file.
+        An .stl (binary or ASCII), .obj, .ply or .step/.stp file.
     units : str
         Length unit of the coordinates ("mm", "in", ...).
     weld : bool
         Merge vertices closer than the weld tolerance.
+    deflection : float, optional
+        STEP only: chordal deflection of the tessellation (cad.tessellate; default from the part's size).
 
     Returns
     -------
     Part
         The mesh with its face groups (one group when the file has none).
     """
-    return read_part(path, units=units, weld=weld).part
+    return read_part(path, units=units, weld=weld, deflection=deflection).part
 
 
-def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> LoadResult:
+def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True,
+              deflection: float | None = None) -> LoadResult:
     """Read a mesh file and report welding and the non-fatal defects found.
 
     Parameters
     ----------
     path : str or PathLike
-        An .stl, .obj or .ply file.
+        An .stl, .obj, .ply or .step/.stp file.
     units : str
         Length unit of the coordinates.
     weld : bool
         Merge vertices closer than the weld tolerance.
+    deflection : float, optional
+        STEP only: chordal deflection of the tessellation (cad.tessellate; default from the part's size).
 
     Returns
     -------
@@ -90,10 +99,12 @@ def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> 
         raise InputError(f"{name}: is a folder, not a mesh file")
     suffix = path.suffix.lower()
     if suffix not in FORMATS:
-        raise InputError(f"{name}: unknown extension {path.suffix!r}; use .stl, .obj or .ply")
+        raise InputError(f"{name}: unknown extension {path.suffix!r}; use .stl, .obj, .ply, .step or .stp")
     data = path.read_bytes()
     if not data.strip():
         raise InputError(f"{name}: the file is empty")
+    if suffix in STEP_FORMATS:
+        return _read_step(path, units, weld, deflection)
     reader = {".stl": _parse_stl, ".obj": _parse_obj, ".ply": _parse_ply}[suffix]
     try:
         raw = reader(data, name)
@@ -102,6 +113,16 @@ def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> 
     except Exception as exc:  # a parser's own failure on malformed bytes
         raise InputError(f"{name}: cannot be read as {suffix[1:].upper()} ({type(exc).__name__})") from None
     return _assemble(raw, name, units, weld)
+
+
+def _read_step(path: Path, units: str, weld: bool, deflection: float | None) -> LoadResult:
+    """A STEP file through cad/: its B-rep, tessellated, welded along the shared edges."""
+    from surfcheck.cad.step import read_step
+    from surfcheck.cad.tessellate import tessellate
+
+    brep = read_step(path)
+    loaded = _assemble(tessellate(brep, deflection), str(path), units, weld)
+    return LoadResult(loaded.part, loaded.merged_vertices, loaded.warnings, brep)
 
 
 def _assemble(raw: RawMesh, name: str, units: str, weld: bool) -> LoadResult:

@@ -59,3 +59,19 @@ def test_fillet_reads_its_radius_and_no_gap():
         for station in seam.grade.stations:
             jump = station.orders[2]
             assert abs(jump.value - 0.25) <= 2.0 * jump.uncertainty + 1e-9, (jump.value, jump.uncertainty)
+
+
+def test_unresolved_cad_seams_name_the_deflection_to_export_with():
+    # the all-edge box of r = 3 at 0.05 mm leaves some fillet seams not resolved (measured): their
+    # advice names a chordal deflection finer than the one the data were read from
+    from surfcheck.grading.advice import advise
+
+    part, kinds = kernel_mesh(filleted_box((40.0, 30.0, 20.0), 3.0, "all"), 0.05)
+    run = grade_part(part, select_seams(part, ["all"]).seams, GENERAL, GradeOptions())
+    unresolved = [g for g in run.grades if g.limited_by and g.limited_by[1] == Status.NOT_RESOLVED]
+    assert unresolved
+    for grade in unresolved:
+        assert grade.deflection is not None and 0.0 < grade.deflection
+        text = advise(grade, GENERAL.coverage).text
+        finer = float(text.rsplit("at most ", 1)[1].split()[0])
+        assert finer < grade.deflection, text

@@ -4,12 +4,16 @@ A failing order names the defect at the governing station and the blend order th
 order that is "not resolved" is told apart by its cause: where the expanded uncertainty U = k u alone
 exceeds the tolerance, the data cannot decide that order at that tolerance whatever the value (the
 measurement is not fit for the tolerance: ISO 14253-1's guard bands leave no conformance zone);
-otherwise the value lies within U of the tolerance and the seam is borderline.
+otherwise the value lies within U of the tolerance and the seam is borderline. Where the seam's sides
+were read from a tessellation's surface (a CAD export), the line names the chordal deflection to
+export with instead (finer_deflection).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+
+import numpy as np
 
 from surfcheck.grading.continuity import ORDERS, UNITS, SeamGrade
 
@@ -19,6 +23,15 @@ DEFECTS = (
     "a curvature jump (a circular fillet is G1 by nature): `surfcheck blend --order 2` or 3 removes it",
     "a jump in the curvature's rate: `surfcheck blend --order 3` removes it",
 )
+
+
+def finer_deflection(deflection: float, value: float, expanded: float, tolerance: float) -> float:
+    """The chordal deflection at which an unresolved order should be decided: U taken as proportional
+    to the deflection (so for a cut side, whose floor is its sagitta; an interpolated side's U falls
+    faster), shrunk until value + U fits under the tolerance, or U to half the distance between value
+    and tolerance when the value lies beyond it (common practice, no published source)."""
+    room = tolerance - value if value < tolerance else 0.5 * (value - tolerance)
+    return deflection * float(np.clip(0.8 * room / expanded, 0.05, 0.8)) if expanded > 0 else 0.5 * deflection
 
 
 @dataclass(frozen=True)
@@ -48,6 +61,12 @@ def advise(grade: SeamGrade, coverage: float) -> Advice | None:
     if status == "fail":
         text = (f"{name} fails {at}: {summary.value:.3g}{unit} exceeds {summary.tolerance:.3g}{unit} by more"
                 f" than U = {expanded:.2g}{unit}; it is {DEFECTS[k]}")
+    elif grade.deflection:
+        finer = finer_deflection(grade.deflection, summary.value, expanded, summary.tolerance)
+        length = f" {grade.units}"
+        text = (f"{name} is not resolved {at}: {summary.value:.3g}{unit} +- U = {expanded:.2g}{unit} against the"
+                f" tolerance {summary.tolerance:.3g}{unit}; the faces there are a tessellation of chordal deflection"
+                f" about {grade.deflection:.2g}{length}: export with a chordal deflection of at most {finer:.2g}{length}")
     elif not expanded < summary.tolerance:
         looser = "" if grade.tolerance == "scan" else " (or, for a scan, `--tolerance scan`)"
         text = (f"{name} cannot be decided {at}: U = {expanded:.2g}{unit} alone exceeds the tolerance"

@@ -113,6 +113,7 @@ class SeamGrade:
     orders: tuple[OrderSummary, OrderSummary, OrderSummary, OrderSummary]
     stations: tuple[StationResult, ...]
     achieved: int
+    deflection: float | None = None  # chordal deflection of the tessellation sparse sides were read from
 
     @property
     def limited_by(self) -> tuple[str, Status] | None:
@@ -129,6 +130,7 @@ class SeamGrade:
             "groups": list(self.groups),
             "length": self.length,
             "welded": self.welded,
+            "chordal_deflection": self.deflection,
             "tolerance": self.tolerance,
             "stations": len(self.stations),
             "achieved": self.achieved,
@@ -243,8 +245,9 @@ def achieved_order(summaries: list[OrderSummary]) -> int:
 
 
 def seam_grade(seam: Curve, welded: bool, results: list[StationResult], profile: ToleranceProfile,
-               units: str) -> SeamGrade:
-    """A seam's grade from its graded stations (at least one): per-order summaries and ``achieved``."""
+               units: str, deflection: float | None = None) -> SeamGrade:
+    """A seam's grade from its graded stations (at least one): per-order summaries and ``achieved``;
+    ``deflection`` the chordal deflection of the tessellation where sides were read from the surface."""
     summaries = [summarize(results, k) for k in range(4)]
     return SeamGrade(seam.id, (seam.groups[0], seam.groups[1]), seam.length, welded, units, profile.name,
-                     tuple(summaries), tuple(results), achieved_order(summaries))
+                     tuple(summaries), tuple(results), achieved_order(summaries), deflection)

@@ -35,8 +35,9 @@ SPLINE_WINDOW_NODES = 0.5  # fit scale of an interpolated side, in node spacings
 @dataclass(frozen=True)
 class SurfaceCut:
     """Samples of a side's section curve (relative to the seam point), the nearest vertex of each
-    sample, the scale of the side's one-sided fit (its smallest window is three of them) and the
-    floor of its points' standard deviation about the curve (sidefit.fit_side's ``floor``).
+    sample, the scale of the side's one-sided fit (its smallest window is three of them), the
+    floor of its points' standard deviation about the curve (sidefit.fit_side's ``floor``) and the
+    chordal deflection of the polygon it was read from.
 
     Samples interpolated between mesh points show no residual of their own, and many of them come
     from one mesh point's worth of information, so the floor is that of the mesh points times the
@@ -46,6 +47,7 @@ class SurfaceCut:
     vertices: np.ndarray  # (n,) int
     scale: float
     floor: float
+    deflection: float  # the largest sagitta of the polygon the side was read from (chordal deflection)
 
 
 def cut_side(part: Part, faces: np.ndarray, origin: np.ndarray, plane_normal: np.ndarray,
@@ -98,8 +100,9 @@ def cut_side(part: Part, faces: np.ndarray, origin: np.ndarray, plane_normal: np
     vertices = F[owner, nearest]
     # a chord's points lie within its sagitta of the surface: a rectangular distribution of that
     # half-width (JCGM 100:2008, 4.3.7), inflated for the samples that share one chord
-    floor = _largest_sagitta(ends, lengths) / np.sqrt(3.0) * np.sqrt(SAMPLES_PER_SEGMENT)
-    return SurfaceCut(points[inside] - origin, vertices[inside], CUT_WINDOW_SEGMENTS * scale, floor)
+    sagitta = _largest_sagitta(ends, lengths)
+    floor = sagitta / np.sqrt(3.0) * np.sqrt(SAMPLES_PER_SEGMENT)
+    return SurfaceCut(points[inside] - origin, vertices[inside], CUT_WINDOW_SEGMENTS * scale, floor, sagitta)
 
 
 def _largest_sagitta(ends: np.ndarray, lengths: np.ndarray) -> float:
@@ -162,8 +165,9 @@ def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np
         fine_at = spline(chord)
         coarse_at = CubicSpline(chord[coarse], nodes[coarse], axis=0, bc_type="not-a-knot")(chord)
         spread = max(spread, float(np.sqrt(((fine_at - coarse_at) ** 2).sum(axis=1).mean())) / 15.0)
+    chords = np.stack([nodes[:-1], nodes[1:]], axis=1)
     return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * float(chord[-1] / (len(nodes) - 1)),
-                      spread * np.sqrt(samples / len(nodes)))
+                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, np.diff(chord)))
 
 
 def _zigzags(nodes: np.ndarray, axis: np.ndarray) -> bool:

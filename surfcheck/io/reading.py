@@ -1,0 +1,103 @@
+"""Reading parts: checks the file, picks the format's parser, assembles and welds the Part."""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from surfcheck.errors import InputError
+from surfcheck.io.obj import parse_obj
+from surfcheck.io.ply import parse_ply
+from surfcheck.io.raw import RawMesh
+from surfcheck.io.stl import parse_stl
+from surfcheck.io.weld import weld_vertices
+from surfcheck.part import Part, check_mesh_arrays
+from surfcheck.validation import clean_faces, fatal_defects
+
+FORMATS = (".stl", ".obj", ".ply")
+
+
+@dataclass
+class LoadResult:
+    """A loaded part and what loading did to the file's mesh."""
+
+    part: Part
+    merged_vertices: int = 0
+    warnings: list[str] = field(default_factory=list)
+
+
+def load_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> Part:
+    """Read a mesh file into a Part (duplicate vertices welded). InputError on unusable input.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        An .stl (binary or ASCII), .obj or .ply file.
+    units : str
+        Length unit of the coordinates ("mm", "in", ...).
+    weld : bool
+        Merge vertices closer than the weld tolerance.
+
+    Returns
+    -------
+    Part
+        The mesh with its face groups (one group when the file has none).
+    """
+    return read_part(path, units=units, weld=weld).part
+
+
+def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> LoadResult:
+    """Read a mesh file and report welding and the non-fatal defects found.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        An .stl, .obj or .ply file.
+    units : str
+        Length unit of the coordinates.
+    weld : bool
+        Merge vertices closer than the weld tolerance.
+
+    Returns
+    -------
+    LoadResult
+        The Part, how many vertices were welded and the non-fatal defects (validation.py).
+    """
+    path = Path(path)
+    name = str(path)
+    if not path.exists():
+        raise InputError(f"{name}: no such file")
+    if path.is_dir():
+        raise InputError(f"{name}: is a folder, not a mesh file")
+    suffix = path.suffix.lower()
+    if suffix not in FORMATS:
+        raise InputError(f"{name}: unknown extension {path.suffix!r}; use .stl, .obj or .ply")
+    data = path.read_bytes()
+    if not data.strip():
+        raise InputError(f"{name}: the file is empty")
+    reader = {".stl": parse_stl, ".obj": parse_obj, ".ply": parse_ply}[suffix]
+    try:
+        raw = reader(data, name)
+    except InputError:
+        raise
+    except Exception as exc:  # a parser's own failure on malformed bytes
+        raise InputError(f"{name}: cannot be read as {suffix[1:].upper()} ({type(exc).__name__})") from None
+    return _assemble(raw, name, units, weld)
+
+
+def _assemble(raw: RawMesh, name: str, units: str, weld: bool) -> LoadResult:
+    V = np.asarray(raw.vertices, dtype=np.float64).reshape(-1, 3)
+    F = np.asarray(raw.faces, dtype=np.int64).reshape(-1, 3)
+    check_mesh_arrays(V, F, name)
+    merged = 0
+    if weld:
+        V, F, merged = weld_vertices(V, F)
+    F, G, warnings = clean_faces(V, F, np.asarray(raw.face_group, dtype=np.int64))
+    part = Part(V, F, G, tuple(raw.group_names), units=units, source=name)
+    problem = fatal_defects(part)
+    if problem:
+        raise InputError(f"{name}: {problem}")
+    return LoadResult(part, merged, warnings)

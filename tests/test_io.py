@@ -160,3 +160,58 @@ def test_non_manifold_edge_is_fatal(tmp_path):
     (tmp_path / "n.obj").write_text(text)
     with pytest.raises(InputError, match="non-manifold"):
         load_part(tmp_path / "n.obj")
+
+
+# STL layout: 3D Systems 1989, "StereoLithography Interface Specification" (binary: 80-byte header,
+# uint32 count, 50-byte records, so exactly 84 + 50 n bytes; ASCII: solid / facet normal / outer loop /
+# three vertex lines / endloop / endfacet / endsolid).
+
+@pytest.mark.parametrize("change, size", [(-1, 683), (+1, 685), (-50, 634), (+50, 734)])
+def test_binary_stl_of_the_wrong_size_is_refused_naming_both_sizes(tmp_path, change, size):
+    data = binary_stl(CUBE_V[CUBE_F])
+    data = data[:change] if change < 0 else data + b"\0" * change
+    path = tmp_path / "cube.stl"
+    path.write_bytes(data)
+    with pytest.raises(InputError, match=rf"cube.stl: truncated or padded binary STL: header says 12 triangles"
+                                         rf" = 684 bytes, file has {size}$"):
+        load_part(path)
+
+
+def test_binary_stl_whose_header_says_solid_reads_as_binary(tmp_path):
+    data = b"solid cube exported as binary".ljust(80, b" ") + binary_stl(CUBE_V[CUBE_F])[80:]
+    (tmp_path / "cube.stl").write_bytes(data)
+    assert load_part(tmp_path / "cube.stl").n_faces == 12
+
+
+def test_ascii_stl_in_capitals_with_tabs_and_crlf_reads(tmp_path):
+    text = ascii_stl(CUBE_V[CUBE_F]).upper().replace("\n", "\r\n").replace(" ", "\t")
+    (tmp_path / "cube.stl").write_text(text)
+    part = load_part(tmp_path / "cube.stl")
+    assert (part.n_vertices, part.n_faces) == (8, 12)
+
+
+def test_ascii_stl_facet_missing_a_vertex_line_is_refused_not_shifted(tmp_path):
+    lines = ascii_stl(CUBE_V[CUBE_F]).splitlines()
+    third_facet_second_vertex = 1 + 2 * 7 + 3
+    assert lines[third_facet_second_vertex].startswith("vertex")
+    del lines[third_facet_second_vertex]
+    (tmp_path / "cube.stl").write_text("\n".join(lines) + "\n")
+    with pytest.raises(InputError, match="facet 3 is not 'facet normal"):
+        load_part(tmp_path / "cube.stl")
+
+
+@pytest.mark.parametrize("cut", ["0.3", "0.5", "endloop", "endsolid"])
+def test_truncated_ascii_stl_is_refused(tmp_path, cut):
+    text = ascii_stl(CUBE_V[CUBE_F])
+    end = text.rindex(cut) if cut.startswith("end") else int(float(cut) * len(text))
+    (tmp_path / "cube.stl").write_text(text[:end])
+    with pytest.raises(InputError, match="truncated"):
+        load_part(tmp_path / "cube.stl")
+
+
+def test_ascii_stl_with_a_word_for_a_coordinate_is_refused(tmp_path):
+    text = ascii_stl(CUBE_V[CUBE_F]).replace("vertex 0.0 0.0 0.0", "vertex zero 0.0 0.0", 1)
+    assert "zero" in text
+    (tmp_path / "cube.stl").write_text(text)
+    with pytest.raises(InputError, match="not a number"):
+        load_part(tmp_path / "cube.stl")

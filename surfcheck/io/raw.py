@@ -5,7 +5,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import trimesh
 
 
 @dataclass
@@ -18,8 +17,8 @@ class RawMesh:
     group_names: list[str]
 
 
-def single_group(mesh) -> RawMesh:
-    if not isinstance(mesh, trimesh.Trimesh):
-        mesh = mesh.to_geometry() if hasattr(mesh, "to_geometry") else mesh.dump(concatenate=True)
-    F = np.asarray(mesh.faces, dtype=np.int64)
-    return RawMesh(np.asarray(mesh.vertices), F, np.zeros(len(F), dtype=np.int64), ["part"])
+def single_group(corners: np.ndarray, faces: np.ndarray | None = None) -> RawMesh:
+    """A mesh in one group "part"; without ``faces``, ``corners`` holds three rows per triangle."""
+    if faces is None:
+        faces = np.arange(len(corners), dtype=np.int64).reshape(-1, 3)
+    return RawMesh(corners, faces, np.zeros(len(faces), dtype=np.int64), ["part"])

@@ -215,3 +215,77 @@ def test_ascii_stl_with_a_word_for_a_coordinate_is_refused(tmp_path):
     (tmp_path / "cube.stl").write_text(text)
     with pytest.raises(InputError, match="not a number"):
         load_part(tmp_path / "cube.stl")
+
+
+# PLY: Turk, "The PLY Polygon File Format" (header grammar: ply, format, element NAME COUNT, property
+# TYPE NAME, property list COUNT_TYPE ITEM_TYPE NAME, comment and obj_info lines, end_header; binary
+# records take the bytes of their types, ASCII records one a line).
+
+def ply_header(fmt: str, faces: int = 2, comments: tuple[str, ...] = ()) -> bytes:
+    lines = ["ply", f"format {fmt} 1.0", *comments, "element vertex 4", "property float x", "property float y",
+             "comment between properties", "property float z", "obj_info written by hand",
+             f"element face {faces}", "property list uchar int vertex_indices", "property int group", "end_header"]
+    return ("\n".join(lines) + "\n").encode()
+
+
+SQUARE = b"0 0 0\n1 0 0\n1 1 0\n0 1 0\n"
+
+
+def test_ply_comments_anywhere_and_a_comment_end_header_line_are_read(tmp_path):
+    data = ply_header("ascii", comments=("comment end_header", "comment group 5 wall")) + SQUARE
+    data += b"3 0 1 2 5\n3 0 2 3 6\n"
+    (tmp_path / "c.ply").write_bytes(data)
+    part = load_part(tmp_path / "c.ply")
+    assert part.n_faces == 2 and part.group_names == ("wall", "group-6")
+
+
+def test_ply_quad_becomes_a_fan_of_two_triangles(tmp_path):
+    (tmp_path / "q.ply").write_bytes(ply_header("ascii", faces=1) + SQUARE + b"4 0 1 2 3 8\n")
+    part = load_part(tmp_path / "q.ply")
+    assert part.n_faces == 2 and np.isclose(part.face_areas.sum(), 1.0)  # unit square
+
+
+def test_binary_ply_big_endian_quads_read(tmp_path):
+    data = ply_header("binary_big_endian", faces=1) + struct.pack(">12f", 0, 0, 0, 1, 0, 0, 1, 1, 0, 0, 1, 0)
+    (tmp_path / "q.ply").write_bytes(data + struct.pack(">B4ii", 4, 0, 1, 2, 3, 1))
+    assert load_part(tmp_path / "q.ply").n_faces == 2
+
+
+@pytest.mark.parametrize("body, message", [
+    (SQUARE + b"3 0 1 2 5\n", "5 record lines but its header claims 6"),  # a face missing
+    (SQUARE + b"3 0 1 2 5\n3 0 2 3 6\n0 0 0\n", "header claims 6"),  # a record added
+    (SQUARE[:-6] + b"3 0 1 2 5\n3 0 2 3 6\n", "header claims 6"),  # a vertex missing
+    (SQUARE + b"3 0 1 2 5\n3 0 2 3\n", "face record 2 has 4 values"),  # a line cut short
+    (SQUARE + b"3 0 1 2 5\n3 0 2.5 3 6\n", "not whole numbers"),  # a float index
+    (SQUARE + b"3 0 1 2 5\n3 0 2 9 6\n", "does not exist"),  # an index out of range
+    (SQUARE + b"3 0 1 2 5\n2 0 2 6\n", "needs 3 or more"),  # a two-corner face
+])
+def test_damaged_ascii_ply_is_refused(tmp_path, body, message):
+    (tmp_path / "d.ply").write_bytes(ply_header("ascii") + body)
+    with pytest.raises(InputError, match=message):
+        load_part(tmp_path / "d.ply")
+
+
+@pytest.mark.parametrize("change, message", [(-1, "truncated"), (+1, "1 bytes after its last element"),
+                                             (+13, "13 bytes after")])
+def test_binary_ply_of_the_wrong_size_is_refused(tmp_path, change, message):
+    data = ply_header("binary_little_endian") + struct.pack("<12f", 0, 0, 0, 1, 0, 0, 1, 1, 0, 0, 1, 0)
+    data += struct.pack("<B3ii", 3, 0, 1, 2, 4) + struct.pack("<B3ii", 3, 0, 2, 3, 5)
+    (tmp_path / "w.ply").write_bytes(data[:change] if change < 0 else data + b"\0" * change)
+    with pytest.raises(InputError, match=message):
+        load_part(tmp_path / "w.ply")
+
+
+def test_ply_with_float_face_indices_is_refused(tmp_path):
+    header = ply_header("binary_little_endian", faces=1).replace(b"uchar int vertex", b"uchar float vertex")
+    data = header + struct.pack("<12f", 0, 0, 0, 1, 0, 0, 1, 1, 0, 0, 1, 0) + struct.pack("<B3fi", 3, 0, 1, 2, 4)
+    (tmp_path / "f.ply").write_bytes(data)
+    with pytest.raises(InputError, match="not whole numbers"):
+        load_part(tmp_path / "f.ply")
+
+
+def test_ply_header_claiming_more_than_the_file_holds_is_refused_before_reading(tmp_path):
+    header = ply_header("ascii").replace(b"element vertex 4", b"element vertex 400000000000")
+    (tmp_path / "h.ply").write_bytes(header + SQUARE)
+    with pytest.raises(InputError, match="truncated or corrupt"):
+        load_part(tmp_path / "h.ply")

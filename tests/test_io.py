@@ -289,3 +289,27 @@ def test_ply_header_claiming_more_than_the_file_holds_is_refused_before_reading(
     (tmp_path / "h.ply").write_bytes(header + SQUARE)
     with pytest.raises(InputError, match="truncated or corrupt"):
         load_part(tmp_path / "h.ply")
+
+
+# OBJ records as in test_obj_groups_one_based_negative_indices_and_polygons; UTF-8 text, where a
+# leading byte-order mark (U+FEFF) is allowed by the Unicode standard (section 23.8).
+
+def test_obj_with_a_byte_order_mark_reads(tmp_path):
+    (tmp_path / "bom.obj").write_bytes(b"\xef\xbb\xbfv 0 0 0\nv 1 0 0\nv 0 1 0\nf 1 2 3\n")
+    assert load_part(tmp_path / "bom.obj").n_faces == 1
+
+
+@pytest.mark.parametrize("face, message", [("f 1 2.7 3", r"line 4: face index '2.7' is not a whole number"),
+                                           ("f 1 2 4", "not defined before it"),
+                                           ("f 0 1 2", "not defined before it"),
+                                           ("f 1 2 -4", "not defined before it")])
+def test_obj_bad_face_indices_are_refused_naming_the_line(tmp_path, face, message):
+    (tmp_path / "bad.obj").write_text(f"v 0 0 0\nv 1 0 0\nv 0 1 0\n{face}\n")
+    with pytest.raises(InputError, match=message):
+        load_part(tmp_path / "bad.obj")
+
+
+def test_obj_coordinate_that_is_not_a_number_is_refused(tmp_path):
+    (tmp_path / "bad.obj").write_text("v 0 0 0\nv 1 zero 0\nv 0 1 0\nf 1 2 3\n")
+    with pytest.raises(InputError, match="line 2: vertex coordinate 'zero' is not a number"):
+        load_part(tmp_path / "bad.obj")

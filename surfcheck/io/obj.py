@@ -11,7 +11,7 @@ from surfcheck.io.raw import RawMesh
 def parse_obj(data: bytes, name: str) -> RawMesh:
     """OBJ `v`, `f` (v, v/vt, v//vn, v/vt/vn; 1-based or negative; polygons as fans), `g`/`o` names."""
     try:
-        text = data.decode("utf-8")
+        text = data.decode("utf-8-sig")  # a byte-order mark at the start is allowed and dropped
     except UnicodeDecodeError:
         raise InputError(f"{name}: not a text OBJ file (bytes that are not UTF-8)") from None
     vertices: list[list[float]] = []
@@ -27,11 +27,11 @@ def parse_obj(data: bytes, name: str) -> RawMesh:
         if tag == "v":
             if len(fields) < 4:
                 raise InputError(f"{name}: line {number}: a vertex needs three coordinates")
-            vertices.append([float(x) for x in fields[1:4]])
+            vertices.append(_numbers(fields[1:4], float, name, number, "vertex coordinate"))
         elif tag == "f":
             if len(fields) < 4:
                 raise InputError(f"{name}: line {number}: a face needs at least three vertices")
-            index = [int(f.split("/", 1)[0]) for f in fields[1:]]
+            index = _numbers([f.split("/", 1)[0] for f in fields[1:]], int, name, number, "face index")
             index = [i - 1 if i > 0 else len(vertices) + i for i in index]
             if min(index) < 0 or max(index) >= len(vertices):
                 raise InputError(f"{name}: line {number}: a face refers to a vertex not defined before it")
@@ -56,3 +56,15 @@ def _group_number(names: list[str], group: str) -> int:
     if group not in names:
         names.append(group)
     return names.index(group)
+
+
+def _numbers(words: list[str], kind: type, name: str, number: int, what: str) -> list:
+    """The words as numbers of ``kind`` (int or float); InputError naming the line otherwise."""
+    numbers = []
+    for word in words:
+        try:
+            numbers.append(kind(word))
+        except ValueError:
+            raise InputError(f"{name}: line {number}: {what} {word[:20]!r} is not a"
+                             f" {'whole number' if kind is int else 'number'}") from None
+    return numbers

@@ -6,6 +6,7 @@ import hashlib
 import struct
 import subprocess
 import sys
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -162,3 +163,34 @@ def test_fuzzed_files_load_or_raise_input_error(tmp_path, kind, data):
         assert "\n" not in str(exc)
     else:
         assert np.isfinite(part.vertices).all() and part.n_faces > 0
+
+
+@pytest.mark.parametrize("coordinate, message", [
+    ("nan", "NaN or infinite"), ("inf", "NaN or infinite"), ("-1e400", "NaN or infinite"),
+    ("1e308", "beyond 1e\\+12 file units"), ("2e12", "beyond 1e\\+12 file units"),
+])
+@pytest.mark.parametrize("kind", ["obj", "stl", "ply"])
+def test_absurd_coordinates_give_one_clean_line_without_warnings(tmp_path, kind, coordinate, message):
+    # The coordinate limit 1e12 is common practice, no published source.
+    corners = [("0", "0", "0"), (coordinate, "0", "0"), ("0", "1", "0")]
+    if kind == "obj":
+        text = "".join(f"v {x} {y} {z}\n" for x, y, z in corners) + "f 1 2 3\n"
+    elif kind == "stl":
+        text = ("solid s\nfacet normal 0 0 1\nouter loop\n" + "".join(f"vertex {x} {y} {z}\n" for x, y, z in corners)
+                + "endloop\nendfacet\nendsolid s\n")
+    else:
+        text = ("ply\nformat ascii 1.0\nelement vertex 3\nproperty double x\nproperty double y\nproperty double z\n"
+                "element face 1\nproperty list uchar int vertex_indices\nend_header\n"
+                + "".join(f"{x} {y} {z}\n" for x, y, z in corners) + "3 0 1 2\n")
+    path = tmp_path / f"far.{kind}"
+    path.write_text(text)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # a numpy RuntimeWarning would fail here
+        with pytest.raises(InputError, match=message):
+            load_part(path)
+    if coordinate != "1e308":
+        return  # the command line once per format (it takes seconds to start)
+    result = run_cli("inspect", str(path))
+    assert result.returncode == 2
+    assert result.stderr.count("\n") == 1 and str(path) in result.stderr and message.split()[0].strip("\\") in result.stderr
+    assert "Warning" not in result.stderr and "internal error" not in result.stderr

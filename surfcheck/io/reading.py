@@ -18,6 +18,7 @@ from surfcheck.part import Part, check_mesh_arrays
 from surfcheck.validation import clean_faces, fatal_defects
 
 FORMATS = (".stl", ".obj", ".ply")
+COORDINATE_LIMIT = 1e12  # in file units; beyond it a part is damaged data; common practice, no published source
 
 
 @dataclass
@@ -80,7 +81,8 @@ def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> 
         raise InputError(f"{name}: the file is empty")
     reader = {".stl": parse_stl, ".obj": parse_obj, ".ply": parse_ply}[suffix]
     try:
-        raw = reader(data, name)
+        with np.errstate(over="raise", invalid="raise", divide="raise"):  # an exception, never a warning
+            raw = reader(data, name)
     except InputError:
         raise
     except Exception as exc:  # a parser's own failure on malformed bytes
@@ -92,6 +94,7 @@ def _assemble(raw: RawMesh, name: str, units: str, weld: bool) -> LoadResult:
     V = np.asarray(raw.vertices, dtype=np.float64).reshape(-1, 3)
     F = np.asarray(raw.faces, dtype=np.int64).reshape(-1, 3)
     check_mesh_arrays(V, F, name)
+    check_magnitude(V, name)
     merged = 0
     if weld:
         V, F, merged = weld_vertices(V, F)
@@ -101,3 +104,11 @@ def _assemble(raw: RawMesh, name: str, units: str, weld: bool) -> LoadResult:
     if problem:
         raise InputError(f"{name}: {problem}")
     return LoadResult(part, merged, warnings)
+
+
+def check_magnitude(V: np.ndarray, name: str) -> None:
+    """InputError when a (finite) coordinate lies beyond COORDINATE_LIMIT in the file's units."""
+    largest = float(np.abs(V).max())
+    if largest > COORDINATE_LIMIT:
+        raise InputError(f"{name}: a coordinate reaches {largest:.3g}, beyond {COORDINATE_LIMIT:.0e} file units;"
+                         " the file is damaged or not in length units: repair or rescale the export")

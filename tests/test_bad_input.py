@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import os
 import struct
 import subprocess
 import sys
@@ -16,7 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from surfcheck import InputError
-from surfcheck.io import load_part
+from surfcheck.io import load_part, read_part
 
 
 def run_cli(*args: str) -> subprocess.CompletedProcess:
@@ -194,3 +195,28 @@ def test_absurd_coordinates_give_one_clean_line_without_warnings(tmp_path, kind,
     assert result.returncode == 2
     assert result.stderr.count("\n") == 1 and str(path) in result.stderr and message.split()[0].strip("\\") in result.stderr
     assert "Warning" not in result.stderr and "internal error" not in result.stderr
+
+
+def test_a_far_stray_vertex_does_not_widen_the_weld(tmp_path):
+    # Two unit squares 1e-3 apart (not the same edge) and one stray corner at 1e12: a tolerance from the
+    # bounding box (1e-7 of 1.7e12) would merge the squares' near corners; the median edge's does not.
+    text = ("v 0 0 0\nv 1 0 0\nv 1 1 0\nv 0 1 0\nv 1.001 0 0\nv 2 0 0\nv 2 1 0\nv 1.001 1 0\n"
+            "v 1e12 -1e12 1e12\nf 1 2 3\nf 1 3 4\nf 5 6 7\nf 5 7 8\nf 6 9 7\n")
+    (tmp_path / "stray.obj").write_text(text)
+    loaded = read_part(tmp_path / "stray.obj")
+    assert loaded.merged_vertices == 0 and loaded.part.n_vertices == 9
+    assert loaded.part.face_components.max() == 1  # two components: the squares stay apart
+
+
+def test_a_fifo_is_refused_without_opening_it(tmp_path):
+    fifo = tmp_path / "pipe.stl"
+    os.mkfifo(fifo)  # opening it for read would block forever with no writer
+    with pytest.raises(InputError, match="not a regular file"):
+        load_part(fifo)
+    result = run_cli("inspect", str(fifo))
+    assert result.returncode == 2 and "not a regular file" in result.stderr
+
+
+def test_a_device_is_refused(tmp_path):
+    with pytest.raises(InputError, match="not a regular file"):
+        load_part("/dev/zero")  # reading it would never end

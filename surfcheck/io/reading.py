@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -69,14 +70,14 @@ def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> 
     """
     path = Path(path)
     name = str(path)
-    if not path.exists():
-        raise InputError(f"{name}: no such file")
-    if path.is_dir():
-        raise InputError(f"{name}: is a folder, not a mesh file")
+    check_regular_file(path)
     suffix = path.suffix.lower()
     if suffix not in FORMATS:
         raise InputError(f"{name}: unknown extension {path.suffix!r}; use .stl, .obj or .ply")
-    data = path.read_bytes()
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"{name}: cannot be read ({exc.strerror or type(exc).__name__})") from None
     if not data.strip():
         raise InputError(f"{name}: the file is empty")
     reader = {".stl": parse_stl, ".obj": parse_obj, ".ply": parse_ply}[suffix]
@@ -88,6 +89,21 @@ def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True) -> 
     except Exception as exc:  # a parser's own failure on malformed bytes
         raise InputError(f"{name}: cannot be read as {suffix[1:].upper()} ({type(exc).__name__})") from None
     return _assemble(raw, name, units, weld)
+
+
+def check_regular_file(path: Path) -> None:
+    """InputError unless ``path`` is (or links to) a regular file; asked of os.stat before any open,
+    so a FIFO, a device or a folder is refused at once instead of blocking or reading without end."""
+    try:
+        mode = os.stat(path).st_mode
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such file") from None
+    except OSError as exc:
+        raise InputError(f"{path}: cannot be read ({exc.strerror or type(exc).__name__})") from None
+    if stat.S_ISDIR(mode):
+        raise InputError(f"{path}: is a folder, not a mesh file")
+    if not stat.S_ISREG(mode):
+        raise InputError(f"{path}: is not a regular file (a pipe, device or socket); give a mesh file")
 
 
 def _assemble(raw: RawMesh, name: str, units: str, weld: bool) -> LoadResult:

@@ -220,3 +220,45 @@ def test_a_fifo_is_refused_without_opening_it(tmp_path):
 def test_a_device_is_refused(tmp_path):
     with pytest.raises(InputError, match="not a regular file"):
         load_part("/dev/zero")  # reading it would never end
+
+
+def run_main(monkeypatch, capsys, *args: str) -> tuple[int, str]:
+    """The command line's entry point in this process (no interpreter start): exit code and stderr."""
+    from surfcheck.cli import main
+
+    monkeypatch.setattr(sys, "argv", ["surfcheck", *args])
+    with pytest.raises(SystemExit) as stop:
+        main()
+    return stop.value.code, capsys.readouterr().err
+
+
+# Each command with an output path, {i} the input part, {o} the output path that turns out to be it.
+OUTPUTS = {
+    "map": ["map", "{i}", "--out", "{o}"],
+    "blend --out": ["blend", "{i}", "--from", "chain-1.1", "--to", "chain-1.2", "--order", "2", "--out", "{o}"],
+    "blend --merged": ["blend", "{i}", "--from", "chain-1.1", "--to", "chain-1.2", "--order", "2", "--merged", "{o}"],
+    "segment": ["segment", "{i}", "--out", "{o}"],
+    "transfer scan": ["transfer", str(SAMPLE), "{i}", "--out", "{o}"],
+    "transfer nominal": ["transfer", "{i}", str(SAMPLE), "--out", "{o}"],
+    "report": ["report", "{i}", "--seam", "all", "--out", "{o}"],
+    "grade --report": ["grade", "{i}", "--seam", "all", "--report", "{o}"],
+}
+
+
+@pytest.mark.parametrize("how", ["same name", "symlink", "hard link", "dotted path"])
+@pytest.mark.parametrize("command", list(OUTPUTS))
+def test_an_output_that_is_an_input_is_refused_and_the_input_kept(tmp_path, monkeypatch, capsys, command, how):
+    source = tmp_path / "part.ply"
+    source.write_bytes((SAMPLE.parent / "housing.ply").read_bytes())
+    before = digest(source)
+    output = {"same name": source, "symlink": tmp_path / "link.ply", "hard link": tmp_path / "hard.ply",
+              "dotted path": tmp_path / "sub" / ".." / "part.ply"}[how]
+    (tmp_path / "sub").mkdir()
+    if how == "symlink":
+        output.symlink_to(source)
+    elif how == "hard link":
+        os.link(source, output)
+    code, err = run_main(monkeypatch, capsys, *[a.format(i=source, o=output) for a in OUTPUTS[command]])
+    assert code == 2 and err.count("\n") == 1 and err.startswith("error: "), err
+    assert "is the input" in err, err
+    assert digest(source) == before

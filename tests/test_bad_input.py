@@ -262,3 +262,43 @@ def test_an_output_that_is_an_input_is_refused_and_the_input_kept(tmp_path, monk
     assert code == 2 and err.count("\n") == 1 and err.startswith("error: "), err
     assert "is the input" in err, err
     assert digest(source) == before
+
+
+def test_ctrl_c_while_starting_gives_one_line_and_exit_130():
+    # 130 = 128 + SIGINT (2): the exit status shells give a command ended by Ctrl-C (POSIX shell convention).
+    import signal
+    import time
+
+    process = subprocess.Popen([sys.executable, "-m", "surfcheck", "inspect", str(SAMPLE)], stdout=subprocess.PIPE,
+                               stderr=subprocess.PIPE, text=True)
+    time.sleep(0.5)  # the entry point has set its handler; the command line's imports take longer
+    process.send_signal(signal.SIGINT)
+    _, err = process.communicate(timeout=60)
+    assert process.returncode == 130 and err == "error: interrupted\n"
+
+
+def test_numba_cache_falls_back_to_a_temporary_folder(tmp_path, monkeypatch):
+    import numba
+
+    from surfcheck.geometry import kernelcache
+
+    blocked = tmp_path / "a-file"
+    blocked.write_text("")  # nothing can be made below a file, even by root
+    monkeypatch.setenv("NUMBA_CACHE_DIR", "")  # unset for numba, and restored after the test
+    monkeypatch.setattr(numba.config, "CACHE_DIR", "")
+    monkeypatch.setenv("XDG_CACHE_HOME", str(blocked / "cache"))  # numba's user-wide cache folder
+    monkeypatch.setenv("HOME", str(blocked))
+    monkeypatch.setattr(kernelcache.tempfile, "tempdir", str(tmp_path / "tmp"))
+    folder = kernelcache.use_writable_cache(blocked / "package")
+    assert folder is not None and folder.parent == tmp_path / "tmp" and folder.is_dir()
+    assert os.environ["NUMBA_CACHE_DIR"] == str(folder) == numba.config.CACHE_DIR
+
+
+def test_numba_cache_is_left_alone_when_the_package_folder_is_writable(tmp_path, monkeypatch):
+    import numba
+
+    from surfcheck.geometry import kernelcache
+
+    monkeypatch.setenv("NUMBA_CACHE_DIR", "")  # unset for numba, and restored after the test
+    monkeypatch.setattr(numba.config, "CACHE_DIR", "")
+    assert kernelcache.use_writable_cache(tmp_path) is None and os.environ["NUMBA_CACHE_DIR"] == ""

@@ -313,3 +313,10 @@ def test_obj_coordinate_that_is_not_a_number_is_refused(tmp_path):
     (tmp_path / "bad.obj").write_text("v 0 0 0\nv 1 zero 0\nv 0 1 0\nf 1 2 3\n")
     with pytest.raises(InputError, match="line 2: vertex coordinate 'zero' is not a number"):
         load_part(tmp_path / "bad.obj")
+
+
+def test_ply_declaring_an_element_twice_is_refused(tmp_path):
+    header = ply_header("ascii").replace(b"element face 2\n", b"element face 2\nelement face 2\n")
+    (tmp_path / "twice.ply").write_bytes(header + SQUARE + b"3 0 1 2 5\n3 0 2 3 6\n")
+    with pytest.raises(InputError, match="declares element 'face' a second time"):
+        load_part(tmp_path / "twice.ply")

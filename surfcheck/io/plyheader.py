@@ -92,6 +92,8 @@ def parse_header(data: bytes, name: str) -> Header:
         elif keyword == "format" and len(words) == 3 and words[1] in FORMATS and byte_order is None:
             byte_order = FORMATS[words[1]]
         elif keyword == "element" and len(words) == 3 and words[2].isdigit():
+            if any(words[1] == e[0] for e in elements):
+                raise InputError(f"{name}: PLY header line {number} declares element {words[1][:40]!r} a second time")
             elements.append((words[1], int(words[2]), []))
         elif keyword == "property" and elements:
             elements[-1][2].append(_property(words, name, number))

@@ -320,3 +320,19 @@ def test_ply_declaring_an_element_twice_is_refused(tmp_path):
     (tmp_path / "twice.ply").write_bytes(header + SQUARE + b"3 0 1 2 5\n3 0 2 3 6\n")
     with pytest.raises(InputError, match="declares element 'face' a second time"):
         load_part(tmp_path / "twice.ply")
+
+
+@pytest.mark.parametrize("order", ["<", ">"])
+def test_binary_ply_mixing_triangles_and_quads_reads(tmp_path, order):
+    fmt = {"<": "binary_little_endian", ">": "binary_big_endian"}[order]
+    header = ply_header(fmt, faces=3).replace(b"element vertex 4", b"element vertex 6")
+    vertices = struct.pack(order + "18f", 0, 0, 0, 1, 0, 0, 1, 1, 0, 0, 1, 0, 2, 0, 0, 2, 1, 0)
+    faces = (struct.pack(order + "B3ii", 3, 1, 4, 2, 7) + struct.pack(order + "B4ii", 4, 0, 1, 2, 3, 8)
+             + struct.pack(order + "B3ii", 3, 2, 4, 5, 9))
+    (tmp_path / "m.ply").write_bytes(header + vertices + faces)
+    loaded = read_part(tmp_path / "m.ply")
+    assert loaded.part.n_faces == 4 and loaded.part.group_names == ("group-7", "group-8", "group-9")
+    assert list(loaded.part.face_group[:3]) == [0, 1, 1]  # the quad's fan keeps its group
+    (tmp_path / "cut.ply").write_bytes(header + vertices + faces[:-3])
+    with pytest.raises(InputError, match="truncated"):
+        load_part(tmp_path / "cut.ply")

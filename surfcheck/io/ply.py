@@ -10,25 +10,16 @@ gives the face groups, named by ``comment group N NAME`` lines.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
-
 import numpy as np
 
 from surfcheck.errors import InputError
 from surfcheck.io.plyheader import Element, Header, parse_header
+from surfcheck.io.plywalk import Lists, walk_records
 from surfcheck.io.raw import RawMesh, fan_triangles
 
 GROUP_PROPERTIES = ("group", "label", "face_group", "region", "patch")
 INDEX_PROPERTIES = ("vertex_indices", "vertex_index")
 WHITESPACE = np.frombuffer(b" \t\n\r\x0b\x0c", dtype=np.uint8)  # what bytes.split() splits on
-
-
-@dataclass(frozen=True)
-class Lists:
-    """The values of a list property: each record's list length and all items, record after record."""
-
-    sizes: np.ndarray
-    items: np.ndarray
 
 
 def parse_ply(data: bytes, name: str) -> RawMesh:
@@ -100,13 +91,18 @@ def _binary_records(data: bytes, header: Header, name: str) -> dict[str, dict]:
     offset = header.body_start
     for element in header.elements:
         layout, lengths = _binary_layout(data, offset, element, header.byte_order, name)
-        size = layout.itemsize * element.count
-        if offset + size > len(data):
-            raise InputError(f"{name}: binary PLY is truncated: element {element.name} needs {size} bytes,"
-                             f" {len(data) - offset} are left")
-        table = np.frombuffer(data, dtype=layout, count=element.count, offset=offset)
-        records[element.name] = _binary_columns(table, element, lengths, name)
-        offset += size
+        end = offset + layout.itemsize * element.count
+        columns = None
+        if end <= len(data):
+            table = np.frombuffer(data, dtype=layout, count=element.count, offset=offset)
+            columns = _binary_columns(table, element, lengths)
+        elif not lengths:
+            raise InputError(f"{name}: binary PLY is truncated: element {element.name} needs"
+                             f" {end - offset} bytes, {len(data) - offset} are left")
+        if columns is None:  # lists of different lengths: walk the records one after the other
+            columns, end = walk_records(data, offset, element, header.byte_order, name)
+        records[element.name] = columns
+        offset = end
     if offset != len(data):
         raise InputError(f"{name}: binary PLY has {len(data) - offset} bytes after its last element;"
                          " the header's counts do not match the data")
@@ -114,8 +110,8 @@ def _binary_records(data: bytes, header: Header, name: str) -> dict[str, dict]:
 
 
 def _binary_layout(data: bytes, offset: int, element: Element, order: str, name: str):
-    """The numpy record type of an element, taking each list's length from its first record (every
-    record must then have it), and those lengths."""
+    """The numpy record type of an element when each list has the length it has in the first record,
+    and those lengths."""
     fields, lengths = [], []
     position = offset
     for i, prop in enumerate(element.properties):
@@ -128,13 +124,14 @@ def _binary_layout(data: bytes, offset: int, element: Element, order: str, name:
             if position + np.dtype(prop.count_code).itemsize > len(data):
                 raise InputError(f"{name}: binary PLY is truncated inside element {element.name}")
             length = int(np.frombuffer(data, dtype=order + prop.count_code, count=1, offset=position)[0])
-        fields += [(f"n{i}", order + prop.count_code), (f"p{i}", order + prop.code, (length,))]
+        fields += [(f"n{i}", order + prop.count_code), (f"p{i}", order + prop.code, (max(length, 0),))]
         lengths.append(length)
-        position += np.dtype(prop.count_code).itemsize + length * np.dtype(prop.code).itemsize
+        position += np.dtype(prop.count_code).itemsize + max(length, 0) * np.dtype(prop.code).itemsize
     return np.dtype(fields), lengths
 
 
-def _binary_columns(table: np.ndarray, element: Element, lengths: list[int], name: str) -> dict:
+def _binary_columns(table: np.ndarray, element: Element, lengths: list[int]) -> dict | None:
+    """The element's properties from its record table; None when a list's length varies."""
     columns = {}
     lists = iter(lengths)
     for i, prop in enumerate(element.properties):
@@ -143,8 +140,7 @@ def _binary_columns(table: np.ndarray, element: Element, lengths: list[int], nam
             continue
         length = next(lists)
         if not (table[f"n{i}"] == length).all():
-            raise InputError(f"{name}: binary PLY element {element.name} has lists of different lengths"
-                             " (mixed polygons) or damaged data; save it as ASCII PLY or OBJ")
+            return None
         sizes = np.full(element.count, length, dtype=np.int64)
         columns[prop.name] = Lists(sizes, table[f"p{i}"].reshape(-1).astype(np.float64))
     return columns

@@ -1,30 +1,49 @@
-"""surfcheck: grade the G0-G3 continuity of seams on triangle meshes and build blend patches."""
+"""surfcheck: grade the G0-G3 continuity of seams on triangle meshes and build blend patches.
+
+The public names below are imported on first use (PEP 562 module __getattr__), so that `import surfcheck`
+and the start of the command line stay light (and Ctrl-C during start-up can be answered in one line).
+"""
+
+from importlib import import_module
 
 from surfcheck.version import __version__
 
-from surfcheck.grading.continuity import SeamGrade
-from surfcheck.grading.run import GradeOptions, GradeRun, grade_part, grade_seam
-from surfcheck.grading.status import Status
-from surfcheck.geometry.differential import (
-    Curvature,
-    gaussian_curvature,
-    mean_curvature,
-    principal_curvatures,
-    vertex_normals,
-)
-from surfcheck.errors import InputError, SurfcheckError
-from surfcheck.io import load_part, read_part, save_part
-from surfcheck.geometry.jumpfield import curvature_jump_field, tangent_jump_field
-from surfcheck.part import Part
-from surfcheck.seams import Curve, SeamIndex
-from surfcheck.blend.patch import build_blend
-from surfcheck.blend.steps import partition_of_unity, smooth_step
-from surfcheck.segmentation.segment import segment_part
-from surfcheck.grading.tolerances import ToleranceProfile, load_profile
+_EXPORTS = {
+    "Curvature": "surfcheck.geometry.differential",
+    "Curve": "surfcheck.seams",
+    "GradeOptions": "surfcheck.grading.run",
+    "GradeRun": "surfcheck.grading.run",
+    "InputError": "surfcheck.errors",
+    "Part": "surfcheck.part",
+    "SeamGrade": "surfcheck.grading.continuity",
+    "SeamIndex": "surfcheck.seams",
+    "Status": "surfcheck.grading.status",
+    "SurfcheckError": "surfcheck.errors",
+    "ToleranceProfile": "surfcheck.grading.tolerances",
+    "build_blend": "surfcheck.blend.patch",
+    "curvature_jump_field": "surfcheck.geometry.jumpfield",
+    "gaussian_curvature": "surfcheck.geometry.differential",
+    "grade_part": "surfcheck.grading.run",
+    "grade_seam": "surfcheck.grading.run",
+    "load_part": "surfcheck.io",
+    "load_profile": "surfcheck.grading.tolerances",
+    "mean_curvature": "surfcheck.geometry.differential",
+    "partition_of_unity": "surfcheck.blend.steps",
+    "principal_curvatures": "surfcheck.geometry.differential",
+    "read_part": "surfcheck.io",
+    "save_part": "surfcheck.io",
+    "segment_part": "surfcheck.segmentation.segment",
+    "smooth_step": "surfcheck.blend.steps",
+    "tangent_jump_field": "surfcheck.geometry.jumpfield",
+    "vertex_normals": "surfcheck.geometry.differential",
+}
+__all__ = sorted(_EXPORTS)
 
-__all__ = [
-    "Curvature", "Curve", "GradeOptions", "GradeRun", "InputError", "Part", "SeamGrade", "Status", "SeamIndex", "SurfcheckError", "ToleranceProfile",
-    "curvature_jump_field", "gaussian_curvature", "grade_part", "grade_seam", "load_part", "load_profile", "mean_curvature",
-    "build_blend", "partition_of_unity", "principal_curvatures", "read_part", "save_part", "segment_part", "smooth_step", "tangent_jump_field",
-    "vertex_normals",
-]
+
+def __getattr__(name: str):
+    """The public name ``name``, imported from its module on first use."""
+    if name not in _EXPORTS:
+        raise AttributeError(f"module 'surfcheck' has no attribute {name!r}")
+    value = getattr(import_module(_EXPORTS[name]), name)
+    globals()[name] = value
+    return value

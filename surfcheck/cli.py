@@ -15,7 +15,7 @@ from rich.table import Table
 
 from surfcheck.errors import InputError, SurfcheckError
 from surfcheck.grading.document import CAUTION
-from surfcheck.io import read_part
+from surfcheck.io import check_outputs, read_part
 from surfcheck.seams import SeamIndex
 from surfcheck.grading.selection import select_seams
 from surfcheck.summary import part_summary
@@ -176,12 +176,13 @@ def grade(
     from surfcheck.grading.run import GradeOptions, grade_part
     from surfcheck.grading.tolerances import load_profile
 
+    if report_dir is not None:
+        from surfcheck.review.folder import FIXED_FILES, check_folder, write_report
+
+        check_outputs([report_dir, *(report_dir / f for f in FIXED_FILES)], [part, nominal])
+        check_folder(report_dir)
     required = parse_requirement(require)
     profile = load_profile(tolerance)
-    if report_dir is not None:
-        from surfcheck.review.folder import check_folder, write_report
-
-        check_folder(report_dir)
     loaded = read_part(part, units=units, deflection=deflection)
     reference = read_part(nominal, units=units, deflection=deflection).part if nominal is not None else None
     chosen = select_seams(loaded.part, list(seam), reference)
@@ -248,6 +249,7 @@ def blend(
 
     if len(parts) not in (1, 2):
         raise InputError("blend takes PART, or PART_A PART_B")
+    check_outputs([out_patch, merged_file], parts)
     profile = load_profile(tolerance)
     part_a = read_part(parts[0], units=units, deflection=deflection).part
     part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units, deflection=deflection).part
@@ -293,6 +295,7 @@ def segment(
 
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
+    check_outputs([out_file], [part])
     loaded = read_part(part, units=units, deflection=deflection)
     segmentation = segment_part(loaded.part, nominal_radius=radius)
     save_part(segmentation.part, out_file)
@@ -347,6 +350,7 @@ def transfer(
 
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
+    check_outputs([out_file], [nominal, scan])
     reference = read_part(nominal, units=units, deflection=deflection).part
     if len(reference.group_names) < 2:
         raise InputError(f"{nominal}: the nominal part has no face groups to carry over")
@@ -395,6 +399,7 @@ def map_field(
     suffix = out_file.suffix.lower()
     if suffix not in (".ply", ".csv", ".png"):
         raise InputError(f"{out_file}: give --out a .ply, .csv or .png name")
+    check_outputs([out_file], [part])
     loaded = read_part(part, units=units, deflection=deflection)
     field = vertex_field(loaded.part, quantity)
     if suffix == ".png":

@@ -3,9 +3,11 @@
 from __future__ import annotations
 
 import hashlib
+import os
 import struct
 import subprocess
 import sys
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -15,7 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from surfcheck import InputError
-from surfcheck.io import load_part
+from surfcheck.io import load_part, read_part
 
 
 def run_cli(*args: str) -> subprocess.CompletedProcess:
@@ -173,3 +175,141 @@ def test_a_field_without_values_is_said_not_crashed(tmp_path):
     assert result.returncode == 0, result.stderr
     assert "no vertex has a value" in result.stdout
     assert (tmp_path / "tet.csv").exists()
+
+
+@pytest.mark.parametrize("coordinate, message", [
+    ("nan", "NaN or infinite"), ("inf", "NaN or infinite"), ("-1e400", "NaN or infinite"),
+    ("1e308", "beyond 1e\\+12 file units"), ("2e12", "beyond 1e\\+12 file units"),
+])
+@pytest.mark.parametrize("kind", ["obj", "stl", "ply"])
+def test_absurd_coordinates_give_one_clean_line_without_warnings(tmp_path, kind, coordinate, message):
+    # The coordinate limit 1e12 is common practice, no published source.
+    corners = [("0", "0", "0"), (coordinate, "0", "0"), ("0", "1", "0")]
+    if kind == "obj":
+        text = "".join(f"v {x} {y} {z}\n" for x, y, z in corners) + "f 1 2 3\n"
+    elif kind == "stl":
+        text = ("solid s\nfacet normal 0 0 1\nouter loop\n" + "".join(f"vertex {x} {y} {z}\n" for x, y, z in corners)
+                + "endloop\nendfacet\nendsolid s\n")
+    else:
+        text = ("ply\nformat ascii 1.0\nelement vertex 3\nproperty double x\nproperty double y\nproperty double z\n"
+                "element face 1\nproperty list uchar int vertex_indices\nend_header\n"
+                + "".join(f"{x} {y} {z}\n" for x, y, z in corners) + "3 0 1 2\n")
+    path = tmp_path / f"far.{kind}"
+    path.write_text(text)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # a numpy RuntimeWarning would fail here
+        with pytest.raises(InputError, match=message):
+            load_part(path)
+    if coordinate != "1e308":
+        return  # the command line once per format (it takes seconds to start)
+    result = run_cli("inspect", str(path))
+    assert result.returncode == 2
+    assert result.stderr.count("\n") == 1 and str(path) in result.stderr and message.split()[0].strip("\\") in result.stderr
+    assert "Warning" not in result.stderr and "internal error" not in result.stderr
+
+
+def test_a_far_stray_vertex_does_not_widen_the_weld(tmp_path):
+    # Two unit squares 1e-3 apart (not the same edge) and one stray corner at 1e12: a tolerance from the
+    # bounding box (1e-7 of 1.7e12) would merge the squares' near corners; the median edge's does not.
+    text = ("v 0 0 0\nv 1 0 0\nv 1 1 0\nv 0 1 0\nv 1.001 0 0\nv 2 0 0\nv 2 1 0\nv 1.001 1 0\n"
+            "v 1e12 -1e12 1e12\nf 1 2 3\nf 1 3 4\nf 5 6 7\nf 5 7 8\nf 6 9 7\n")
+    (tmp_path / "stray.obj").write_text(text)
+    loaded = read_part(tmp_path / "stray.obj")
+    assert loaded.merged_vertices == 0 and loaded.part.n_vertices == 9
+    assert loaded.part.face_components.max() == 1  # two components: the squares stay apart
+
+
+def test_a_fifo_is_refused_without_opening_it(tmp_path):
+    fifo = tmp_path / "pipe.stl"
+    os.mkfifo(fifo)  # opening it for read would block forever with no writer
+    with pytest.raises(InputError, match="not a regular file"):
+        load_part(fifo)
+    result = run_cli("inspect", str(fifo))
+    assert result.returncode == 2 and "not a regular file" in result.stderr
+
+
+def test_a_device_is_refused(tmp_path):
+    with pytest.raises(InputError, match="not a regular file"):
+        load_part("/dev/zero")  # reading it would never end
+
+
+def run_main(monkeypatch, capsys, *args: str) -> tuple[int, str]:
+    """The command line's entry point in this process (no interpreter start): exit code and stderr."""
+    from surfcheck.cli import main
+
+    monkeypatch.setattr(sys, "argv", ["surfcheck", *args])
+    with pytest.raises(SystemExit) as stop:
+        main()
+    return stop.value.code, capsys.readouterr().err
+
+
+# Each command with an output path, {i} the input part, {o} the output path that turns out to be it.
+OUTPUTS = {
+    "map": ["map", "{i}", "--out", "{o}"],
+    "blend --out": ["blend", "{i}", "--from", "chain-1.1", "--to", "chain-1.2", "--order", "2", "--out", "{o}"],
+    "blend --merged": ["blend", "{i}", "--from", "chain-1.1", "--to", "chain-1.2", "--order", "2", "--merged", "{o}"],
+    "segment": ["segment", "{i}", "--out", "{o}"],
+    "transfer scan": ["transfer", str(SAMPLE), "{i}", "--out", "{o}"],
+    "transfer nominal": ["transfer", "{i}", str(SAMPLE), "--out", "{o}"],
+    "report": ["report", "{i}", "--seam", "all", "--out", "{o}"],
+    "grade --report": ["grade", "{i}", "--seam", "all", "--report", "{o}"],
+}
+
+
+@pytest.mark.parametrize("how", ["same name", "symlink", "hard link", "dotted path"])
+@pytest.mark.parametrize("command", list(OUTPUTS))
+def test_an_output_that_is_an_input_is_refused_and_the_input_kept(tmp_path, monkeypatch, capsys, command, how):
+    source = tmp_path / "part.ply"
+    source.write_bytes((SAMPLE.parent / "housing.ply").read_bytes())
+    before = digest(source)
+    output = {"same name": source, "symlink": tmp_path / "link.ply", "hard link": tmp_path / "hard.ply",
+              "dotted path": tmp_path / "sub" / ".." / "part.ply"}[how]
+    (tmp_path / "sub").mkdir()
+    if how == "symlink":
+        output.symlink_to(source)
+    elif how == "hard link":
+        os.link(source, output)
+    code, err = run_main(monkeypatch, capsys, *[a.format(i=source, o=output) for a in OUTPUTS[command]])
+    assert code == 2 and err.count("\n") == 1 and err.startswith("error: "), err
+    assert "is the input" in err, err
+    assert digest(source) == before
+
+
+def test_ctrl_c_while_starting_gives_one_line_and_exit_130():
+    # 130 = 128 + SIGINT (2): the exit status shells give a command ended by Ctrl-C (POSIX shell convention).
+    import signal
+    import time
+
+    process = subprocess.Popen([sys.executable, "-m", "surfcheck", "inspect", str(SAMPLE)], stdout=subprocess.PIPE,
+                               stderr=subprocess.PIPE, text=True)
+    time.sleep(0.5)  # the entry point has set its handler; the command line's imports take longer
+    process.send_signal(signal.SIGINT)
+    _, err = process.communicate(timeout=60)
+    assert process.returncode == 130 and err == "error: interrupted\n"
+
+
+def test_numba_cache_falls_back_to_a_temporary_folder(tmp_path, monkeypatch):
+    import numba
+
+    from surfcheck.geometry import kernelcache
+
+    blocked = tmp_path / "a-file"
+    blocked.write_text("")  # nothing can be made below a file, even by root
+    monkeypatch.setenv("NUMBA_CACHE_DIR", "")  # unset for numba, and restored after the test
+    monkeypatch.setattr(numba.config, "CACHE_DIR", "")
+    monkeypatch.setenv("XDG_CACHE_HOME", str(blocked / "cache"))  # numba's user-wide cache folder
+    monkeypatch.setenv("HOME", str(blocked))
+    monkeypatch.setattr(kernelcache.tempfile, "tempdir", str(tmp_path / "tmp"))
+    folder = kernelcache.use_writable_cache(blocked / "package")
+    assert folder is not None and folder.parent == tmp_path / "tmp" and folder.is_dir()
+    assert os.environ["NUMBA_CACHE_DIR"] == str(folder) == numba.config.CACHE_DIR
+
+
+def test_numba_cache_is_left_alone_when_the_package_folder_is_writable(tmp_path, monkeypatch):
+    import numba
+
+    from surfcheck.geometry import kernelcache
+
+    monkeypatch.setenv("NUMBA_CACHE_DIR", "")  # unset for numba, and restored after the test
+    monkeypatch.setattr(numba.config, "CACHE_DIR", "")
+    assert kernelcache.use_writable_cache(tmp_path) is None and os.environ["NUMBA_CACHE_DIR"] == ""

@@ -35,6 +35,8 @@ from surfcheck.polyline import cumulative_arc_length
 PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
 SEAM_QUANTITY = "jump"  # the field under each seam's picture
 CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam
+PAGE_FILE, RESULT_FILE = "index.html", "result.json"
+FIXED_FILES = (PAGE_FILE, RESULT_FILE)  # the names a review folder always holds, beside its pictures
 LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib")
 
 
@@ -226,14 +228,14 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
                                     " its worst stations, each side's one-sided fit over its data.",
                                     f"{grade.id} curvature profiles"))
             steps.advance(f"{grade.id} profiles")
-        write_atomic(out / "result.json", (json.dumps(document, indent=2, allow_nan=False) + "\n").encode())
+        write_atomic(out / RESULT_FILE, (json.dumps(document, indent=2, allow_nan=False) + "\n").encode())
         context = {"surfcheck": __version__, "libraries": _library_versions(),
                    "written": datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")}
         notes = _notes(document)
         page = review_page(document, summary, part_pictures, seam_pictures, context, notes)
-        write_atomic(out / "index.html", page.encode("utf-8"))
+        write_atomic(out / PAGE_FILE, page.encode("utf-8"))
         steps.advance("page")
-    return out / "index.html"
+    return out / PAGE_FILE
 
 
 def _notes(document: dict) -> list[str]:

@@ -1,0 +1,41 @@
+"""Welding: merge the vertices of a mesh closer than a tolerance."""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.spatial import cKDTree
+
+from surfcheck.part import half_edges
+
+WELD_RELATIVE_TOLERANCE = 1e-4  # of the median edge length; common practice, no published source
+
+
+def weld_tolerance(V: np.ndarray, F: np.ndarray) -> float:
+    """WELD_RELATIVE_TOLERANCE of the median length of the triangles' nonzero edges (0 when there is
+    none). The median follows the typical triangle, so a stray far vertex cannot widen it the way it
+    widens the bounding box."""
+    ends = half_edges(F)
+    lengths = np.linalg.norm(V[ends[:, 1]] - V[ends[:, 0]], axis=1)
+    lengths = lengths[lengths > 0]
+    return WELD_RELATIVE_TOLERANCE * float(np.median(lengths)) if len(lengths) else 0.0
+
+
+def weld_vertices(V: np.ndarray, F: np.ndarray, tolerance: float | None = None):
+    """Merge vertices closer than ``tolerance`` (default: weld_tolerance, from the median edge length).
+
+    Returns the used vertices, re-indexed faces and how many vertices were merged away.
+    """
+    if tolerance is None:
+        tolerance = weld_tolerance(V, F)
+    pairs = cKDTree(V).query_pairs(tolerance, output_type="ndarray")
+    representative = np.arange(len(V))
+    if len(pairs):
+        graph = sp.coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(len(V), len(V)))
+        _, labels = sp.csgraph.connected_components(graph, directed=False)
+        first = np.full(labels.max() + 1, len(V))
+        np.minimum.at(first, labels, np.arange(len(V)))
+        representative = first[labels]
+    merged = len(V) - len(np.unique(representative))
+    used, new_index = np.unique(representative[F.reshape(-1)], return_inverse=True)
+    return V[used], new_index.reshape(-1, 3).astype(np.int64), merged

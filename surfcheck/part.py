@@ -29,6 +29,15 @@ def half_edges(F: np.ndarray) -> np.ndarray:
     return np.stack([F, np.roll(F, -1, axis=1)], axis=2).reshape(-1, 2)
 
 
+def median_edge_length(V: np.ndarray, F: np.ndarray) -> float:
+    """The median length of the triangles' nonzero edges (each counted once per triangle); 0 if none.
+    It follows the typical triangle: a stray far vertex moves it no more than any other one edge."""
+    ends = half_edges(F)
+    lengths = np.linalg.norm(V[ends[:, 1]] - V[ends[:, 0]], axis=1)
+    lengths = lengths[lengths > 0]
+    return float(np.median(lengths)) if len(lengths) else 0.0
+
+
 def edge_table(F: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The edges of the triangles F over n vertices: (e, 2) unique undirected edges as (low, high)
     vertex index, (3m,) the edge of each of the half_edges, and (e,) how many faces use each edge (1 on

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from surfcheck.part import Part
+from surfcheck.part import Part, median_edge_length
 
-ZERO_AREA_RELATIVE = 1e-12  # of the squared bounding-box diagonal; common practice, no published source
+ZERO_AREA_RELATIVE = 1e-8  # of the squared median edge length; common practice, no published source
 
 
 def clean_faces(V: np.ndarray, F: np.ndarray, G: np.ndarray) -> tuple[np.ndarray, np.ndarray, list[str]]:
@@ -25,7 +25,7 @@ def clean_faces(V: np.ndarray, F: np.ndarray, G: np.ndarray) -> tuple[np.ndarray
     if len(F):
         a, b, c = (V[F[:, i]] for i in range(3))
         area2 = np.linalg.norm(np.cross(b - a, c - a), axis=1)
-        scale = float(np.linalg.norm(np.ptp(V, axis=0))) ** 2 or 1.0
+        scale = median_edge_length(V, F) ** 2 or 1.0  # not the bounding box: a stray vertex would inflate it
         degenerate = int((area2 <= ZERO_AREA_RELATIVE * scale).sum())
         if degenerate:
             warnings.append(f"{degenerate} zero-area triangles (collinear corners)")

@@ -216,6 +216,7 @@ def test_a_far_stray_vertex_does_not_widen_the_weld(tmp_path):
     (tmp_path / "stray.obj").write_text(text)
     loaded = read_part(tmp_path / "stray.obj")
     assert loaded.merged_vertices == 0 and loaded.part.n_vertices == 9
+    assert loaded.warnings == []  # nor does it make the squares' triangles look like zero-area ones
     assert loaded.part.face_components.max() == 1  # two components: the squares stay apart
 
 

@@ -6,19 +6,15 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.spatial import cKDTree
 
-from surfcheck.part import half_edges
+from surfcheck.part import median_edge_length
 
 WELD_RELATIVE_TOLERANCE = 1e-4  # of the median edge length; common practice, no published source
 
 
 def weld_tolerance(V: np.ndarray, F: np.ndarray) -> float:
-    """WELD_RELATIVE_TOLERANCE of the median length of the triangles' nonzero edges (0 when there is
-    none). The median follows the typical triangle, so a stray far vertex cannot widen it the way it
-    widens the bounding box."""
-    ends = half_edges(F)
-    lengths = np.linalg.norm(V[ends[:, 1]] - V[ends[:, 0]], axis=1)
-    lengths = lengths[lengths > 0]
-    return WELD_RELATIVE_TOLERANCE * float(np.median(lengths)) if len(lengths) else 0.0
+    """WELD_RELATIVE_TOLERANCE of the median edge length (part.median_edge_length), which a stray far
+    vertex cannot widen the way it widens the bounding box."""
+    return WELD_RELATIVE_TOLERANCE * median_edge_length(V, F)
 
 
 def weld_vertices(V: np.ndarray, F: np.ndarray, tolerance: float | None = None):

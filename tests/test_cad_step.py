@@ -33,7 +33,7 @@ from OCP.TopoDS import TopoDS
 from typer.testing import CliRunner
 
 from surfcheck.cad.kernel import silenced
-from surfcheck.cad.edges import shared_edges
+from surfcheck.cad.edges import evaluate_edge, shared_edges
 from surfcheck.cli import app
 from surfcheck.geometry.normalsection import normal_section
 from surfcheck.grading.exact import grade_brep
@@ -148,6 +148,24 @@ def test_kinks_read_the_construction_angle(kernel_parts, name, angle):
         values = np.array([s.orders[1].value for s in grade.stations])
         assert np.allclose(values, angle, atol=1e-6)
         assert grade.orders[0].max < 1e-9
+
+
+@pytest.mark.parametrize("name", ["box", "chamfer", "fillet"])
+def test_directions_across_edges_run_from_a_into_b(kernel_parts, name):
+    # Construction: each part is a convex solid. Both directions are normal to the edge and tangent to
+    # their face, so they lie in the plane normal to the edge with the two normals, turned from each other
+    # by the angle between the faces: continuing face A past the edge leaves through face B's outward
+    # side (out . n_B = sin angle) and enters B turned by that angle (out . in = cos angle).
+    loaded = read_part(kernel_parts[name])
+    for edge in shared_edges(loaded.brep):
+        at = evaluate_edge(loaded.brep, edge, np.array([0.3 * edge.length]))
+        out_of_a, into_b = at.across[:, 0]
+        normal_a, normal_b = at.normals[:, 0]
+        angle = float(at.angle[0])
+        assert abs(out_of_a @ normal_a) < 1e-9 and abs(into_b @ normal_b) < 1e-9
+        assert out_of_a @ normal_b == pytest.approx(np.sin(angle), abs=1e-9)
+        assert -(into_b @ normal_a) == pytest.approx(np.sin(angle), abs=1e-9)
+        assert out_of_a @ into_b == pytest.approx(np.cos(angle), abs=1e-9)
 
 
 def test_cli_grades_step_exactly_by_default_and_the_mesh_on_request(kernel_parts):

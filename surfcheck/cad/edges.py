@@ -62,13 +62,15 @@ class EdgeStations:
     """Both faces' exact geometry at stations along an edge, travelling across it from face A to B.
 
     Arrays over stations: ``s`` arc length along the edge, ``position`` (n, 3) the edge's point,
-    ``points`` (2, n, 3) each face's point, ``normals`` (2, n, 3) unit outward normals, ``curvature``
-    and ``rate`` (2, n) of each face's normal section across the edge."""
+    ``points`` (2, n, 3) each face's point, ``normals`` (2, n, 3) unit outward normals, ``across`` (2, n, 3)
+    the unit direction of travel (out of face A, into face B; tangent to each face, normal to the edge),
+    ``curvature`` and ``rate`` (2, n) of each face's normal section in that direction."""
 
     s: np.ndarray
     position: np.ndarray
     points: np.ndarray
     normals: np.ndarray
+    across: np.ndarray
     curvature: np.ndarray
     rate: np.ndarray
 
@@ -149,10 +151,8 @@ def evaluate_edge(brep: Brep, shared: SharedEdge, s: np.ndarray) -> EdgeStations
         inward /= np.linalg.norm(inward, axis=1, keepdims=True)
         travel = -inward if k == 0 else inward  # out of face A, into face B
         curvature, rate = normal_section(derivatives, normal, travel)
-        sides.append((points, normal, curvature, rate))
-    return EdgeStations(np.asarray(s, dtype=float), position, np.stack([x[0] for x in sides]),
-                        np.stack([x[1] for x in sides]), np.stack([x[2] for x in sides]),
-                        np.stack([x[3] for x in sides]))
+        sides.append((points, normal, travel, curvature, rate))
+    return EdgeStations(np.asarray(s, dtype=float), position, *(np.stack(column) for column in zip(*sides)))
 
 
 def _face_jets(face, use: TopoDS_Edge, parameters: list[float], position: np.ndarray):

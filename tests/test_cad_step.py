@@ -38,6 +38,7 @@ from surfcheck.cli import app
 from surfcheck.geometry.normalsection import normal_section
 from surfcheck.grading.exact import grade_brep
 from surfcheck.grading.tolerances import load_profile
+from surfcheck.errors import InputError
 from surfcheck.io import read_part
 from surfcheck.seams import SeamIndex
 from tests.fixtures.grade_schema import grade_document_schema
@@ -100,6 +101,24 @@ def test_groups_are_faces_and_seams_are_welded_edges(kernel_parts, name, faces, 
     assert len(index.seams) == edges
     assert all(len(seam.groups) == 2 for seam in index.seams)
     assert loaded.merged_vertices > 0
+
+
+def test_faces_take_their_step_entity_names(kernel_parts, tmp_path):
+    # ISO 10303-42: ADVANCED_FACE's first attribute is its name; named faces become groups of that name,
+    # unnamed ones stay face-N (N in the kernel's face order)
+    text = kernel_parts["fillet"].read_text()
+    named = text.replace("ADVANCED_FACE('',", "ADVANCED_FACE('lid',", 1)
+    assert named != text
+    path = tmp_path / "named.stp"
+    path.write_text(named)
+    names = read_part(path).part.group_names
+    assert names.count("lid") == 1 and len(names) == 7
+    assert all(name == f"face-{i}" for i, name in enumerate(names, start=1) if name != "lid")
+
+
+def test_step_coordinates_are_millimetres(kernel_parts):
+    with pytest.raises(InputError, match="mm"):
+        read_part(kernel_parts["box"], units="in")
 
 
 def test_deflection_refines_the_tessellation(kernel_parts):

@@ -148,6 +148,7 @@ SPACING_OPT = typer.Option(None, "--spacing", help="Distance between stations, i
 STRIP_OPT = typer.Option(None, "--strip", help="Half-width of a station's strip along the seam, part units (default from the edge length).")
 REACH_OPT = typer.Option(None, "--reach", help="How far from the seam a section reaches, part units (default from the edge length).")
 SEARCH_OPT = typer.Option(False, "--search", help="On a welded seam, move the split to the transition found along each section.")
+METHOD_OPT = typer.Option(None, "--method", help="exact (a STEP part's B-rep faces; its default) or mesh (the triangles; default for meshes).")
 NOMINAL_OPT = typer.Option(None, "--nominal", help="A grouped nominal part: align the scan to it and grade by its group names.")
 
 
@@ -167,12 +168,15 @@ def grade(
     strip: Optional[float] = STRIP_OPT,
     reach: Optional[float] = REACH_OPT,
     search: bool = SEARCH_OPT,
+    method: Optional[str] = METHOD_OPT,
 ) -> None:
     """Grade G0..G3 continuity across seams, with uncertainty, against a tolerance profile.
 
     On a scan without groups, `--seam auto` segments it into faces and fillets first, and `--nominal`
-    labels it from a grouped nominal part."""
+    labels it from a grouped nominal part. A STEP part is graded on its B-rep faces (exact) unless
+    `--method mesh` asks for its tessellation."""
     from surfcheck.grading.document import parse_requirement, run_document
+    from surfcheck.grading.exact import EXACT, grade_brep
     from surfcheck.grading.run import GradeOptions, grade_part
     from surfcheck.grading.tolerances import load_profile
 
@@ -183,14 +187,28 @@ def grade(
         check_folder(report_dir)
     required = parse_requirement(require)
     profile = load_profile(tolerance)
+    if method not in (None, "exact", "mesh"):
+        raise InputError(f"--method {method!r}: use exact or mesh")
     loaded = read_part(part, units=units, deflection=deflection)
+    exact = (method or ("exact" if loaded.brep is not None else "mesh")) == "exact"
+    if exact and loaded.brep is None:
+        raise InputError(f"{part}: --method exact needs a STEP part (B-rep faces); a mesh is graded with --method mesh")
+    if exact and report_dir is not None:
+        raise InputError("--report draws the mesh sections; add --method mesh to grade the tessellation with a report")
     reference = read_part(nominal, units=units, deflection=deflection).part if nominal is not None else None
     chosen = select_seams(loaded.part, list(seam), reference)
-    run = grade_part(chosen.part, chosen.seams, profile, GradeOptions(stations, spacing, strip, reach, search),
-                     progress=lambda seams: _progress(seams, "grading seams", quiet=as_json))
+    options = GradeOptions(stations, spacing, strip, reach, search)
+    def progress(seams):
+        return _progress(seams, "grading seams", quiet=as_json)
+
+    if exact:
+        run = grade_brep(chosen.part, loaded.brep, chosen.seams, profile, options, progress=progress)
+    else:
+        run = grade_part(chosen.part, chosen.seams, profile, options, progress=progress)
     if not run.grades:
         raise InputError("; ".join(f"{s.curve.id}: {s.reason}" for s in run.not_graded))
-    parameters = {"seams": list(seam), "nominal": str(nominal) if nominal else None, **chosen.notes}
+    parameters = {"seams": list(seam), "nominal": str(nominal) if nominal else None,
+                  "method": EXACT if exact else "mesh", "deflection": deflection, **chosen.notes}
     document = run_document(run, required, parameters)
     if report_dir is not None:
         page = write_report(run, required, report_dir, parameters=parameters, summary=part_summary(loaded),
@@ -222,7 +240,7 @@ def report(
 ) -> None:
     """Grade seams and write a review page with pictures and plots (DIR/index.html, DIR/result.json)."""
     grade(part, seam, tolerance, require, stations, spacing, units, deflection=deflection, as_json=False, report_dir=out, nominal=nominal,
-          strip=strip, reach=reach, search=search)
+          strip=strip, reach=reach, search=search, method="mesh")
 
 
 @app.command()

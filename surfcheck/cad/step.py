@@ -32,13 +32,14 @@ class Brep:
 
 
 def faces_of(shape: TopoDS_Shape) -> list[TopoDS_Face]:
-    """The faces of a shape, each once, in exploration order."""
-    found, seen = [], set()
+    """The faces of a shape, each once (TopoDS_Shape.IsSame), in exploration order."""
+    found, seen = [], {}
     explorer = TopExp_Explorer(shape, TopAbs_FACE)
     while explorer.More():
         face = TopoDS.Face(explorer.Current())
-        if face not in seen:
-            seen.add(face)
+        same_hash = seen.setdefault(hash(face), [])
+        if not any(face.IsSame(other) for other in same_hash):
+            same_hash.append(face)
             found.append(face)
         explorer.Next()
     return found

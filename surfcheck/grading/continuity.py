@@ -113,6 +113,7 @@ class SeamGrade:
     orders: tuple[OrderSummary, OrderSummary, OrderSummary, OrderSummary]
     stations: tuple[StationResult, ...]
     achieved: int
+    method: str = "mesh"  # "mesh" (one-sided fits to the triangles) or "exact B-rep" (the faces evaluated)
     deflection: float | None = None  # chordal deflection of the tessellation sparse sides were read from
 
     @property
@@ -131,6 +132,7 @@ class SeamGrade:
             "length": self.length,
             "welded": self.welded,
             "chordal_deflection": self.deflection,
+            "method": self.method,
             "tolerance": self.tolerance,
             "stations": len(self.stations),
             "achieved": self.achieved,
@@ -191,10 +193,30 @@ def fit_sides(section: Section, search: bool = False) -> StationSides:
                         fit_side(data_b, end_b, 1.0, h_b, floor_b))
 
 
+def decide_orders(profile: ToleranceProfile, gap: tuple[float, float], angle: tuple[float, float],
+                  curvature: tuple[tuple[float, float], tuple[float, float]],
+                  rate: tuple[tuple[float, float], tuple[float, float]]) -> tuple[OrderResult, ...]:
+    """G0..G3 at one station from (value, standard uncertainty) pairs: the gap (length), the angle
+    (degrees), and each side's (A, B) curvature and rate; the two sides' uncertainties of a jump add in
+    quadrature, the G2 (G3) tolerance is max(absolute, relative * the larger |value| of the two sides)."""
+    k = profile.coverage
+    orders = [
+        OrderResult(gap[0], gap[1], profile.g0_gap, decide(gap[0], gap[1], profile.g0_gap, k)),
+        OrderResult(angle[0], angle[1], profile.g1_angle, decide(angle[0], angle[1], profile.g1_angle, k)),
+    ]
+    for (a, b), absolute, relative in ((curvature, profile.g2_abs, profile.g2_rel), (rate, profile.g3_abs, profile.g3_rel)):
+        jump = float(abs(b[0] - a[0]))
+        u_jump = float(np.hypot(a[1], b[1]))
+        larger = float(max(abs(a[0]), abs(b[0])))
+        tol = max(absolute, relative * larger)
+        orders.append(OrderResult(jump, u_jump, tol, decide(jump, u_jump, tol, k),
+                                  jump / larger if larger > 0 else 0.0))
+    return tuple(orders)
+
+
 def grade_sides(section: Section, sides: StationSides, profile: ToleranceProfile) -> StationResult:
     """Grade G0..G3 at one station from both sides' estimates against the profile (part units)."""
     a, b = sides.a, sides.b
-    k = profile.coverage
     turn = (b.heading - a.heading + np.pi) % (2 * np.pi) - np.pi
     if section.welded:  # the sides share the seam's vertices: the mesh has no gap there, exactly
         gap, u_gap = 0.0, 0.0
@@ -203,19 +225,12 @@ def grade_sides(section: Section, sides: StationSides, profile: ToleranceProfile
         u_gap = float(np.sqrt(a.variances[OFFSET] + b.variances[OFFSET]))
     angle = float(np.degrees(abs(turn)))
     u_angle = float(np.degrees(np.hypot(a.uncertainty(HEADING), b.uncertainty(HEADING))))
-    orders = [
-        OrderResult(gap, u_gap, profile.g0_gap, decide(gap, u_gap, profile.g0_gap, k)),
-        OrderResult(angle, u_angle, profile.g1_angle, decide(angle, u_angle, profile.g1_angle, k)),
-    ]
-    for q, absolute, relative in ((CURVATURE, profile.g2_abs, profile.g2_rel), (RATE, profile.g3_abs, profile.g3_rel)):
-        jump = float(abs(b.values[q] - a.values[q]))
-        u_jump = float(np.hypot(a.uncertainty(q), b.uncertainty(q)))
-        larger = float(max(abs(a.values[q]), abs(b.values[q])))
-        tol = max(absolute, relative * larger)
-        orders.append(OrderResult(jump, u_jump, tol, decide(jump, u_jump, tol, k),
-                                  jump / larger if larger > 0 else 0.0))
+    orders = decide_orders(
+        profile, (gap, u_gap), (angle, u_angle),
+        ((a.values[CURVATURE], a.uncertainty(CURVATURE)), (b.values[CURVATURE], b.uncertainty(CURVATURE))),
+        ((a.values[RATE], a.uncertainty(RATE)), (b.values[RATE], b.uncertainty(RATE))))
     position = section.to_world(0.5 * (a.point + b.point))
-    return StationResult(section.index, section.s, position, sides.shift, tuple(orders),
+    return StationResult(section.index, section.s, position, sides.shift, orders,
                          (a.curvature, b.curvature), (a.rate, b.rate), (a.count, b.count),
                          (float(a.windows[CURVATURE]), float(b.windows[CURVATURE])))
 
@@ -245,9 +260,12 @@ def achieved_order(summaries: list[OrderSummary]) -> int:
 
 
 def seam_grade(seam: Curve, welded: bool, results: list[StationResult], profile: ToleranceProfile,
-               units: str, deflection: float | None = None) -> SeamGrade:
+               units: str, method: str = "mesh", length: float | None = None,
+               deflection: float | None = None) -> SeamGrade:
     """A seam's grade from its graded stations (at least one): per-order summaries and ``achieved``;
-    ``deflection`` the chordal deflection of the tessellation where sides were read from the surface."""
+    ``length`` defaults to the seam polyline's; ``deflection`` the chordal deflection of the
+    tessellation where sides were read from the surface."""
     summaries = [summarize(results, k) for k in range(4)]
-    return SeamGrade(seam.id, (seam.groups[0], seam.groups[1]), seam.length, welded, units, profile.name,
-                     tuple(summaries), tuple(results), achieved_order(summaries), deflection)
+    return SeamGrade(seam.id, (seam.groups[0], seam.groups[1]), seam.length if length is None else length, welded,
+                     units, profile.name, tuple(summaries), tuple(results), achieved_order(summaries), method,
+                     deflection)

@@ -86,7 +86,7 @@ def grade_seam_run(part: Part, seam: Curve, profile: ToleranceProfile, options: 
         stations.append(GradedStation(section, sides, grade_sides(section, sides, profile)))
     deflections = [s.deflection for s in sections if s.deflection is not None]
     grade = seam_grade(seam, sections[0].welded, [s.result for s in stations], profile, part.units,
-                       max(deflections) if deflections else None)
+                       deflection=max(deflections) if deflections else None)
     return SeamRun(seam, tuple(stations), grade)
 
 

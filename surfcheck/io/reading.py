@@ -117,10 +117,13 @@ def check_regular_file(path: Path) -> None:
 
 
 def _read_step(path: Path, units: str, weld: bool, deflection: float | None) -> LoadResult:
-    """A STEP file through cad/: its B-rep, tessellated, welded along the shared edges."""
+    """A STEP file through cad/: its B-rep (in mm: the kernel's reader converts the file's length unit),
+    tessellated, welded along the shared edges."""
     from surfcheck.cad.step import read_step
     from surfcheck.cad.tessellate import tessellate
 
+    if units != "mm":
+        raise InputError(f"{path}: the STEP reader gives coordinates in mm whatever the file's unit; drop --units {units}")
     brep = read_step(path)
     loaded = _assemble(tessellate(brep, deflection), str(path), units, weld)
     return LoadResult(loaded.part, loaded.merged_vertices, loaded.warnings, brep)

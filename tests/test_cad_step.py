@@ -7,6 +7,11 @@ through OCP), written to STEP and read back: their truth follows from the constr
   curvature jump 1/4 = 0.25 1/mm (circle against line) and curvature-rate jump 0 (both constant).
 - The box with one edge chamfered at distance 3 on both faces (BRepFilletAPI_MakeChamfer): the chamfer
   plane meets each face at 45 degrees (G0, not G1).
+- A prism over a profile where a line runs tangentially into the arc of the ellipse x = a cos t,
+  y = b sin t (a = 10, b = 5) at t0 = pi/4: the cross-section of the prism is the profile, so the
+  line | ellipse seam is G1 with curvature jump k(t0) = a b / D^(3/2) and rate jump
+  |dk/ds| = 3 a b (a^2 - b^2) sin t0 cos t0 / D^3, D = a^2 sin^2 t0 + b^2 cos^2 t0 (curvature of a
+  parametrised plane curve, do Carmo 1-5), the curvature falling as t grows.
 Face and edge counts follow Euler's polyhedron formula V - E + F = 2 (box: 8 - 12 + 6; rounding or
 chamfering one edge adds a face, three edges and two vertices: 10 - 15 + 7).
 """
@@ -23,9 +28,12 @@ import numpy as np
 import pytest
 import sympy
 from OCP.BRepAdaptor import BRepAdaptor_Surface
+from OCP.BRepBuilderAPI import BRepBuilderAPI_MakeEdge, BRepBuilderAPI_MakeFace, BRepBuilderAPI_MakeWire
 from OCP.BRepFilletAPI import BRepFilletAPI_MakeChamfer, BRepFilletAPI_MakeFillet
-from OCP.BRepPrimAPI import BRepPrimAPI_MakeBox
+from OCP.BRepPrimAPI import BRepPrimAPI_MakeBox, BRepPrimAPI_MakePrism
+from OCP.GC import GC_MakeArcOfEllipse, GC_MakeSegment
 from OCP.GeomAbs import GeomAbs_Plane
+from OCP.gp import gp_Ax2, gp_Dir, gp_Elips, gp_Pnt, gp_Vec
 from OCP.STEPControl import STEPControl_AsIs, STEPControl_Writer
 from OCP.TopAbs import TopAbs_EDGE
 from OCP.TopExp import TopExp_Explorer
@@ -66,23 +74,41 @@ def kernel_parts(tmp_path_factory):
     chamfer = BRepFilletAPI_MakeChamfer(box)
     chamfer.Add(CHAMFER, edge)
     paths = {}
-    for name, shape in (("box", box), ("fillet", fillet.Shape()), ("chamfer", chamfer.Shape())):
+    for name, shape in (("box", box), ("fillet", fillet.Shape()), ("chamfer", chamfer.Shape()),
+                        ("ellipse", _line_into_ellipse_prism())):
         paths[name] = folder / f"{name}.step"
         _write_step(shape, paths[name])
     return paths
 
 
+A, B, T0 = 10.0, 5.0, np.pi / 4
+
+
+def _line_into_ellipse_prism():
+    """A prism 8 mm high over: a 4 mm line tangent to the ellipse at T0, the arc to t = pi/2, and lines
+    back through the origin."""
+    p0 = np.array([A * np.cos(T0), B * np.sin(T0), 0.0])
+    tangent = np.array([-A * np.sin(T0), B * np.cos(T0), 0.0])
+    start = p0 - 4.0 * tangent / np.linalg.norm(tangent)
+    corners = [gp_Pnt(*map(float, p)) for p in (start, p0, (0, B, 0), (0, 0, 0), (start[0], 0, 0))]
+    ellipse = gp_Elips(gp_Ax2(gp_Pnt(0, 0, 0), gp_Dir(0, 0, 1), gp_Dir(1, 0, 0)), A, B)
+    curves = [GC_MakeSegment(corners[0], corners[1]).Value(), GC_MakeArcOfEllipse(ellipse, T0, np.pi / 2, True).Value()]
+    curves += [GC_MakeSegment(corners[i], corners[(i + 1) % 5]).Value() for i in (2, 3, 4)]
+    wire = BRepBuilderAPI_MakeWire()
+    for curve in curves:
+        wire.Add(BRepBuilderAPI_MakeEdge(curve).Edge())
+    return BRepPrimAPI_MakePrism(BRepBuilderAPI_MakeFace(wire.Wire()).Face(), gp_Vec(0, 0, 8.0)).Shape()
+
+
 def _special_face(loaded) -> str:
-    """The group of the one face that is not a plane (the fillet) or, failing that, the one plane whose
-    normal is not along an axis (the chamfer)."""
-    for face, name in zip(loaded.brep.faces, loaded.brep.names):
-        surface = BRepAdaptor_Surface(face)
-        if surface.GetType() != GeomAbs_Plane:
-            return name
-        normal = np.array(surface.Plane().Axis().Direction().Coord())
-        if np.count_nonzero(np.abs(normal) > 1e-9) > 1:
-            return name
-    raise AssertionError("no fillet or chamfer face")
+    """The group of the one face that is not a plane (the fillet, the ellipse) or, failing that, of the
+    plane whose normal is not along an axis (the chamfer)."""
+    surfaces = [(BRepAdaptor_Surface(face), name) for face, name in zip(loaded.brep.faces, loaded.brep.names)]
+    curved = [name for surface, name in surfaces if surface.GetType() != GeomAbs_Plane]
+    oblique = [name for surface, name in surfaces if surface.GetType() == GeomAbs_Plane
+               and np.count_nonzero(np.abs(surface.Plane().Axis().Direction().Coord()) > 1e-9) > 1]
+    assert len(curved) == 1 or (not curved and len(oblique) == 1)
+    return (curved or oblique)[0]
 
 
 def _graded(loaded):
@@ -151,6 +177,26 @@ def test_fillet_is_g1_with_the_construction_curvature_jump(kernel_parts):
         assert np.allclose([s.orders[3].value for s in grade.stations], 0, atol=1e-6)  # constant curvatures
 
 
+def test_line_into_ellipse_reads_the_construction_curvature_and_rate(kernel_parts):
+    loaded = read_part(kernel_parts["ellipse"])
+    ellipse = _special_face(loaded)
+    D = A**2 * np.sin(T0) ** 2 + B**2 * np.cos(T0) ** 2
+    curvature = A * B / D**1.5
+    rate = -3 * A * B * (A**2 - B**2) * np.sin(T0) * np.cos(T0) / D**3  # d k / d s as t grows
+    tangent = [g for groups, g in _graded(loaded).items() if ellipse in groups and g.orders[1].max < 1.0]
+    assert len(tangent) == 1
+    grade = tangent[0]
+    assert grade.achieved == 1  # G1; the curvature jumps
+    side = grade.groups.index(ellipse)
+    travel = 1 if side == 1 else -1  # from A into B: into the ellipse as t grows, or out of it
+    for station in grade.stations:
+        assert station.curvature[side] == pytest.approx(curvature, abs=1e-9)
+        assert station.curvature[1 - side] == pytest.approx(0, abs=1e-12)
+        assert station.rate[side] == pytest.approx(travel * rate, abs=1e-9)
+        assert station.orders[2].value == pytest.approx(curvature, abs=1e-9)
+        assert station.orders[3].value == pytest.approx(abs(rate), abs=1e-9)
+
+
 @pytest.mark.parametrize("name, angle", [("chamfer", 45.0), ("box", 90.0)])
 def test_kinks_read_the_construction_angle(kernel_parts, name, angle):
     loaded = read_part(kernel_parts[name])
@@ -169,7 +215,7 @@ def test_kinks_read_the_construction_angle(kernel_parts, name, angle):
         assert grade.orders[0].max < 1e-9
 
 
-@pytest.mark.parametrize("name", ["box", "chamfer", "fillet"])
+@pytest.mark.parametrize("name", ["box", "chamfer", "fillet", "ellipse"])
 def test_directions_across_edges_run_from_a_into_b(kernel_parts, name):
     # Construction: each part is a convex solid. Both directions are normal to the edge and tangent to
     # their face, so they lie in the plane normal to the edge with the two normals, turned from each other

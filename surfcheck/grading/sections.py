@@ -365,10 +365,8 @@ def _sparse_side(part: Part, faces: np.ndarray, frame: "_SeamFrame", ids: np.nda
     distinct = len(np.unique(np.round(rel / resolution), axis=0)) if len(rel) else 0
     if distinct >= SPARSE_SIDE:
         return None
-    if distinct >= SPLINE_POINTS:
-        spline = spline_through(ids, rel, resolution, frame.tangent)
-        # scattered vertices (an irregular or noisy mesh) are no curve to interpolate: the fit takes them
-        return spline if spline is not None else None
+    if distinct >= SPLINE_POINTS:  # None for scattered vertices (an irregular or noisy mesh): the fit takes them
+        return spline_through(ids, rel, resolution, frame.tangent)
     return cut_side(part, faces, frame.origin, frame.tangent, radius)
 
 

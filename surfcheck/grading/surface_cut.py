@@ -81,7 +81,7 @@ def cut_side(part: Part, faces: np.ndarray, origin: np.ndarray, plane_normal: np
     keep &= (np.linalg.norm(ends - origin, axis=2) <= reach).any(axis=1)
     if not keep.any():
         return None
-    ends, F = ends[keep], F[keep]
+    ends, F, links = ends[keep], F[keep], links[keep]
     lengths = np.linalg.norm(ends[:, 1] - ends[:, 0], axis=1)
     scale = float(lengths.mean())  # the mean: a plane through a vertex leaves slivers of segments
     total = min(float(lengths.sum()), reach)
@@ -100,32 +100,28 @@ def cut_side(part: Part, faces: np.ndarray, origin: np.ndarray, plane_normal: np
     vertices = F[owner, nearest]
     # a chord's points lie within its sagitta of the surface: a rectangular distribution of that
     # half-width (JCGM 100:2008, 4.3.7), inflated for the samples that share one chord
-    sagitta = _largest_sagitta(ends, lengths)
+    sagitta = _largest_sagitta(ends, links)
     floor = sagitta / np.sqrt(3.0) * np.sqrt(SAMPLES_PER_SEGMENT)
     return SurfaceCut(points[inside] - origin, vertices[inside], CUT_WINDOW_SEGMENTS * scale, floor, sagitta)
 
 
-def _largest_sagitta(ends: np.ndarray, lengths: np.ndarray) -> float:
-    """Largest c^2 kappa / 8 over the segments, kappa the turning between segments that share an end
-    point divided by their mean length (the discrete curvature of a polygon)."""
+def _largest_sagitta(ends: np.ndarray, links: np.ndarray) -> float:
+    """Largest c^2 kappa / 8 over the segments ``ends`` (k, 2, 3), kappa the turning between two
+    segments that share a node (``links``: (k, 2) node of each end) divided by their mean length (the
+    discrete curvature of a polygon)."""
     if len(ends) < 2:
         return 0.0
-    flat = np.round(ends.reshape(-1, 3), 12)
-    _, node = np.unique(flat, axis=0, return_inverse=True)
-    node = node.reshape(-1, 2)
+    lengths = np.linalg.norm(ends[:, 1] - ends[:, 0], axis=1)
+    k = len(ends)
+    incidence = sp.csr_matrix((np.ones(2 * k), (np.repeat(np.arange(k), 2), links.ravel())))
+    pairs = sp.triu(incidence @ incidence.T, k=1).tocoo()  # segments sharing a node
+    i, j = pairs.row, pairs.col
+    if len(i) == 0:
+        return 0.0
     direction = (ends[:, 1] - ends[:, 0]) / np.maximum(lengths, 1e-300)[:, None]
-    worst = 0.0
-    for end in (0, 1):
-        for other in (0, 1):
-            i, j = np.nonzero(node[:, end][:, None] == node[:, other][None, :])
-            pick = i < j
-            i, j = i[pick], j[pick]
-            if len(i) == 0:
-                continue
-            cos = np.abs(np.einsum("ij,ij->i", direction[i], direction[j]))
-            kappa = np.arccos(np.clip(cos, -1.0, 1.0)) / (0.5 * (lengths[i] + lengths[j]))
-            worst = max(worst, float((np.maximum(lengths[i], lengths[j]) ** 2 * kappa).max() / 8.0))
-    return worst
+    cos = np.abs(np.einsum("ij,ij->i", direction[i], direction[j]))
+    kappa = np.arccos(np.clip(cos, -1.0, 1.0)) / (0.5 * (lengths[i] + lengths[j]))
+    return float((np.maximum(lengths[i], lengths[j]) ** 2 * kappa).max() / 8.0)
 
 
 def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np.ndarray) -> SurfaceCut | None:
@@ -166,8 +162,9 @@ def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np
         coarse_at = CubicSpline(chord[coarse], nodes[coarse], axis=0, bc_type="not-a-knot")(chord)
         spread = max(spread, float(np.sqrt(((fine_at - coarse_at) ** 2).sum(axis=1).mean())) / 15.0)
     chords = np.stack([nodes[:-1], nodes[1:]], axis=1)
+    consecutive = np.stack([np.arange(len(nodes) - 1), np.arange(1, len(nodes))], axis=1)
     return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * float(chord[-1] / (len(nodes) - 1)),
-                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, np.diff(chord)))
+                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, consecutive))
 
 
 def _zigzags(nodes: np.ndarray, axis: np.ndarray) -> bool:

@@ -19,13 +19,13 @@ any station fails it, holds it when every station holds it, and is "not resolved
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from surfcheck.seams import Curve
 from surfcheck.grading.sections import Section
-from surfcheck.grading.sidefit import CURVATURE, HEADING, OFFSET, RATE, SideEstimate, fit_side
+from surfcheck.grading.sidefit import BUDGET, CURVATURE, HEADING, OFFSET, RATE, SideEstimate, fit_side
 from surfcheck.grading.status import Status
 from surfcheck.grading.tolerances import ToleranceProfile
 from surfcheck.grading.transition import find_transition, split_at
@@ -47,12 +47,15 @@ class OrderResult:
     tolerance: float
     status: Status
     relative: float | None = None
+    budget: tuple[float, ...] | None = None  # standard uncertainty of each sidefit.BUDGET component
 
     def to_dict(self) -> dict:
         out = {"value": _measured(self.value, self.uncertainty), "uncertainty": _num(self.uncertainty),
                "tolerance": _num(self.tolerance), "status": self.status.value}
         if self.relative is not None:
             out["relative"] = _num(self.relative)
+        if self.budget is not None:
+            out["budget"] = {name: _num(u) for name, u in zip(BUDGET, self.budget)}
         return out
 
 
@@ -115,6 +118,8 @@ class SeamGrade:
     achieved: int
     method: str = "mesh"  # "mesh" (one-sided fits to the triangles) or "exact B-rep" (the faces evaluated)
     deflection: float | None = None  # chordal deflection of the tessellation sparse sides were read from
+    coverage: float = 2.0  # k: a station is ok when value + k u <= tolerance
+    fail_coverage: float = 2.0  # k_n: the seam fails where a station's value - k_n u > tolerance (Sidak)
 
     @property
     def limited_by(self) -> tuple[str, Status] | None:
@@ -135,6 +140,7 @@ class SeamGrade:
             "method": self.method,
             "tolerance": self.tolerance,
             "stations": len(self.stations),
+            "decision": {"coverage": self.coverage, "fail_coverage": self.fail_coverage},
             "achieved": self.achieved,
             "limited_by": None if limit is None else {"order": limit[0], "status": limit[1].value},
             "orders": {name: summary.to_dict(unit.format(u=self.units))
@@ -229,10 +235,46 @@ def grade_sides(section: Section, sides: StationSides, profile: ToleranceProfile
         profile, (gap, u_gap), (angle, u_angle),
         ((a.values[CURVATURE], a.uncertainty(CURVATURE)), (b.values[CURVATURE], b.uncertainty(CURVATURE))),
         ((a.values[RATE], a.uncertainty(RATE)), (b.values[RATE], b.uncertainty(RATE))))
+    orders = tuple(replace(o, budget=tuple(float(u) for u in budget))
+                   for o, budget in zip(orders, _jump_budgets(a, b, section.welded)))
     position = section.to_world(0.5 * (a.point + b.point))
     return StationResult(section.index, section.s, position, sides.shift, orders,
                          (a.curvature, b.curvature), (a.rate, b.rate), (a.count, b.count),
                          (float(a.windows[CURVATURE]), float(b.windows[CURVATURE])))
+
+
+def _jump_budgets(a: SideEstimate, b: SideEstimate, welded: bool) -> list[np.ndarray]:
+    """Each order's standard uncertainty per budget component: both sides' variances added (their data
+    are disjoint); G1 in degrees; a welded seam's G0 is exact."""
+    both = np.sqrt(a.budget + b.budget)
+    gap = np.zeros(len(BUDGET)) if welded else both[:, OFFSET]
+    return [gap, np.degrees(both[:, HEADING]), both[:, CURVATURE], both[:, RATE]]
+
+
+def seam_fail_coverage(coverage: float, stations: int) -> float:
+    """The coverage factor a station must exceed the tolerance by for its seam to fail, so that the
+    seam's false-fail rate stays that of one station at ``coverage``.
+
+    A seam fails when any of its ``stations`` fails, and its stations' data are disjoint (the strips do
+    not overlap), so at k per station a seam that meets its tolerance everywhere would fail with
+    probability 1 - (1 - a)^n, a = 1 - Phi(k) the one-sided rate of one station. Sidak's correction
+    (Sidak 1967, J. Amer. Statist. Assoc. 62:626) gives each station a_n = 1 - (1 - a)^(1/n), so
+    k_n = Phi^-1(1 - a_n): 2.0 for one station, 2.83 for 10, 3.3 for 48 at k = 2. Conformance ("ok")
+    keeps k at every station: it is already proven at each one. The rule is the guard band of ISO
+    14253-1 applied to the seam's measurand, the worst jump along it."""
+    from scipy.stats import norm
+
+    single = norm.sf(coverage)
+    return float(norm.isf(-np.expm1(np.log1p(-single) / max(stations, 1))))
+
+
+def _seam_decisions(results: list[StationResult], fail_coverage: float) -> list[StationResult]:
+    """Stations with each fail re-decided at the seam's factor: a fail within it is not resolved."""
+    def redecide(r: OrderResult) -> OrderResult:
+        if r.status is Status.FAIL and not r.value - fail_coverage * r.uncertainty > r.tolerance:
+            return replace(r, status=Status.NOT_RESOLVED)
+        return r
+    return [replace(st, orders=tuple(redecide(r) for r in st.orders)) for st in results]
 
 
 def summarize(stations: list[StationResult], order: int) -> OrderSummary:
@@ -265,7 +307,9 @@ def seam_grade(seam: Curve, welded: bool, results: list[StationResult], profile:
     """A seam's grade from its graded stations (at least one): per-order summaries and ``achieved``;
     ``length`` defaults to the seam polyline's; ``deflection`` the chordal deflection of the
     tessellation where sides were read from the surface."""
+    fail_coverage = seam_fail_coverage(profile.coverage, len(results))
+    results = _seam_decisions(results, fail_coverage)
     summaries = [summarize(results, k) for k in range(4)]
     return SeamGrade(seam.id, (seam.groups[0], seam.groups[1]), seam.length if length is None else length, welded,
                      units, profile.name, tuple(summaries), tuple(results), achieved_order(summaries), method,
-                     deflection)
+                     deflection, profile.coverage, fail_coverage)

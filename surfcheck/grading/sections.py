@@ -36,6 +36,8 @@ GEODESIC_SLACK = 1.3  # a side's point lies at most this many times farther alon
 MAX_SEAM_TURN = 0.5  # radians the seam may turn over its local fit (the fit narrows until it does not)
 FINER_SIDE = 0.5  # a side sampled across the seam closer than this many typical edge lengths is fitted on
 # its own scale (common practice, no published source)
+SEAM_BORDER_ANGLE = np.radians(45.0)  # a border edge within this of the seam's tangent runs along it (common
+# practice, no published source)
 SPARSE_SIDE = 40  # a side whose strip gives fewer distinct section points is read from its surface
 _SEAM_FIT_DEGREE = 5
 
@@ -103,13 +105,21 @@ def side_vertices(part: Part, group: str) -> np.ndarray:
     return np.unique(part.faces[part.face_group == part.group_index(group)])
 
 
-def border_vertices(part: Part, group: str) -> np.ndarray:
-    """Vertices on the group's border: on an edge used by one face of the group and no other face of it
-    (a mesh boundary) or by faces of the group and of another group."""
+def border_edges(part: Part, group: str) -> np.ndarray:
+    """(k, 2) edges on the group's border: used by one face of the group and no other face of it (a
+    mesh boundary) or by faces of the group and of another group."""
     in_group = (part.face_group == part.group_index(group)).astype(np.int64)
     count_in = part.edge_faces @ in_group
     border = (count_in >= 1) & ((count_in == 1) | (part.edge_face_count > count_in))
-    return np.unique(part.edges[border])
+    return part.edges[border]
+
+
+def _seam_border(part: Part, edges: np.ndarray, tangent: np.ndarray) -> np.ndarray:
+    """Vertices of the border ``edges`` that run along the seam (within SEAM_BORDER_ANGLE of its
+    ``tangent``): the border that faces the other side, not the cap across the part's end."""
+    direction = part.vertices[edges[:, 1]] - part.vertices[edges[:, 0]]
+    along = np.abs(direction @ tangent) >= np.cos(SEAM_BORDER_ANGLE) * np.linalg.norm(direction, axis=1)
+    return np.unique(edges[along])
 
 
 def typical_edge_length(part: Part, vertices: np.ndarray) -> float:
@@ -173,7 +183,7 @@ def cut_sections(
     V = part.vertices
     trees = (cKDTree(V[ids_a]), cKDTree(V[ids_b]))
     nearest_seam = _SeamLocator(seam.points, seam.closed, 0.25 * h)
-    border_b = None if welded else border_vertices(part, group_b)
+    border_b = None if welded else border_edges(part, group_b)
     groups = (part.group_index(group_a), part.group_index(group_b))
     scales = side_spacings(part, seam, groups, h)
     group_faces = [np.flatnonzero(part.face_group == g) for g in groups]
@@ -197,6 +207,7 @@ def cut_sections(
             # small loop the far side projects onto the station's tangent line, too)
             inside &= nearest_seam.offset(V[near], s) <= width + h
             mapped.append((near[inside], coords[inside]))
+        border_data = mapped[1]  # side B's own vertices: its border is where its data meets the seam
         scale_of, floor_of, end_floor_of, deflection = list(scales), [0.0, 0.0], [(0.0,) * 4] * 2, None
         for side, faces in enumerate(group_faces):
             cut = _sparse_side(part, faces, frame, *mapped[side], h, radius)
@@ -221,10 +232,12 @@ def cut_sections(
         if welded:
             end_b = end_a
         else:
-            on_border = np.isin(near_b[keep_b], border_b)
-            if not on_border.any():
+            ids, rel = border_data
+            on_border = np.isin(ids, _seam_border(part, border_b, frame.tangent))
+            pts = np.stack([rel[on_border] @ cross, rel[on_border] @ normal], axis=1)
+            pts = pts[np.hypot(*pts.T) <= reach]
+            if len(pts) == 0:
                 continue
-            pts = xy_b[keep_b][on_border]
             dist = np.hypot(*pts.T)
             end_b = pts[dist <= dist.min() + 0.5 * h].mean(axis=0)
         sections.append(Section(index, float(s), frame.origin, frame.tangent, normal, cross,

@@ -25,8 +25,12 @@ point), the (degree, window) with the smallest variance + bias^2. The bias^2 of 
 from the next degree's fit on the same window (an embedded estimate, as in Runge-Kutta-Fehlberg
 pairs): the squared difference of the two estimates less the variance of that difference (for nested
 least-squares fits, the difference of their variances), an unbiased estimate of the squared bias.
-The reported uncertainty is sqrt(variance + bias^2), plus the part due to the reference being itself
-an estimate: (dq / d ref)^2 var(ref) for its curvature and rate.
+The reported bias^2 is the larger of that and the ladder term: the squared differences to the next
+LADDER_DEGREES degrees less LADDER_SIGNIFICANCE^2 times their variances (where the polynomial series
+converges slowly, degree d + 1 can agree with d while both are off). The reported uncertainty is
+sqrt(variance + bias^2), plus the part due to the reference being itself an estimate: (dq / d ref)^2
+var(ref) for its curvature and rate, and the last step of the reference iteration (the a-posteriori
+error of a fixed-point iteration). Each component is kept apart in the estimate's budget.
 """
 
 from __future__ import annotations
@@ -35,6 +39,10 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+# The uncertainty budget of a side's quantities (JCGM 100:2008, section 5: components added in
+# quadrature): the fit's noise, its bias (embedded and ladder estimates), the reference's own
+# uncertainty, the reference iteration's last step, and an interpolated side's unobserved first interval.
+BUDGET = ("noise", "bias", "reference", "iteration", "interpolation")
 DEGREES = (2, 3, 4, 5)  # fitted degrees; degree + 1 is fitted too, for the bias estimate
 MIN_DEGREE = (2, 2, 3, 3)  # lowest degree for offset, heading (2) and curvature, rate (3)
 MIN_WINDOW_EDGES = 3.0
@@ -72,6 +80,7 @@ class SideEstimate:
     end: np.ndarray  # (2,) the seam point the fit is taken at
     direction: np.ndarray  # (2,) the side's tangent line (A to B) the offset is measured across
     count: int  # data points on the side
+    budget: np.ndarray | None = None  # (len(BUDGET), 4): each component's variance (BUDGET names them)
 
     @property
     def point(self) -> np.ndarray:
@@ -320,6 +329,7 @@ def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float, floor: 
     ref = Reference(initial_reference(points, end, sign, h).direction)
     side = _Side(points, end, sign, h, ref, floor)
     est = _estimate(side, len(points), end)
+    step = np.zeros(4)  # the iteration's last change of the quantities
     for _ in range(REFERENCE_ITERATIONS):
         if not np.isfinite(est.variances[HEADING:RATE]).all():
             break
@@ -330,12 +340,18 @@ def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float, floor: 
         new_est = _estimate(new_side, len(points), end)
         if not np.isfinite(new_est.variances[HEADING:RATE]).all():
             break  # keep the last reference that gave an estimate
+        step = new_est.values - est.values
         ref, side, est = new, new_side, new_est
         if converged:
             break
     est = _with_reference_noise(est, points, end, sign, h, ref)
     rounding = (ROUNDING * np.array([h, 1.0, 1.0 / h, 1.0 / h**2])) ** 2
-    return replace(est, variances=np.maximum(est.variances + np.square(end_floor), rounding))
+    # the a-posteriori error of the fixed-point iteration (its last step): where the references cycle
+    # between two fits instead of converging, the estimate is known only to within their difference
+    budget = est.budget.copy()
+    budget[BUDGET.index("iteration")] = np.square(step)
+    budget[BUDGET.index("interpolation")] = np.square(end_floor)
+    return replace(est, variances=np.maximum(est.variances + budget[3:].sum(axis=0), rounding), budget=budget)
 
 
 def _reference_from(est: SideEstimate, reach: float) -> Reference:
@@ -361,13 +377,17 @@ def _estimate(side: _Side, count: int, end: np.ndarray) -> SideEstimate:
     if not np.isfinite(best).any():
         return _unresolved(end, count)
     values = np.where(np.isfinite(best), vals[win, deg, np.arange(4)], 0.0)
-    return SideEstimate(values, best, deg, windows[win], end, side.ref.direction, count)
+    noise = np.where(np.isfinite(best), vars_[win, deg, np.arange(4)], np.inf)
+    budget = np.zeros((len(BUDGET), 4))
+    budget[0], budget[1] = noise, np.where(np.isfinite(best), best - noise, 0.0)
+    return SideEstimate(values, best, deg, windows[win], end, side.ref.direction, count, budget)
 
 
 def _select(vals: np.ndarray, vars_: np.ndarray) -> tuple[np.ndarray, tuple[np.ndarray, np.ndarray]]:
     """Per quantity, the (window, degree) with the smallest variance + bias^2 among the windows the
-    ICI rule admits (bias from the next degree), and its variance + the ladder's bias^2 (from every
-    higher degree; see the module docstring). vals, vars_: (windows, degrees, 4)."""
+    ICI rule admits (bias from the next degree), and its variance + the larger of that bias^2 and the
+    ladder's (the next LADDER_DEGREES degrees; see the module docstring). vals, vars_: (windows,
+    degrees, 4)."""
     score = np.full(vals.shape, np.inf)
     stated = np.full(vals.shape, np.inf)
     for deg in DEGREES:
@@ -397,6 +417,7 @@ def _with_reference_noise(est: SideEstimate, points, end, sign, h, ref: Referenc
     central differences at the chosen fits. A perturbed reference that leaves a fit unusable adds
     nothing."""
     variances = est.variances.copy()
+    budget = est.budget.copy()
     windows = np.unique(est.windows)
     for field, k in (("k0", CURVATURE), ("k1", RATE)):
         u_ref = est.uncertainty(k)
@@ -409,9 +430,10 @@ def _with_reference_noise(est: SideEstimate, points, end, sign, h, ref: Referenc
             slope = (moved[0][j, est.degrees[q], q] - moved[1][j, est.degrees[q], q]) / (2.0 * u_ref)
             if np.isfinite(slope):
                 variances[q] += (slope * u_ref) ** 2
-    return replace(est, variances=variances)
+                budget[BUDGET.index("reference"), q] += (slope * u_ref) ** 2
+    return replace(est, variances=variances, budget=budget)
 
 
 def _unresolved(end: np.ndarray, count: int) -> SideEstimate:
     return SideEstimate(np.zeros(4), np.full(4, np.inf), np.zeros(4, dtype=int), np.zeros(4), end,
-                        np.array([1.0, 0.0]), count)
+                        np.array([1.0, 0.0]), count, np.full((len(BUDGET), 4), np.inf))

@@ -24,6 +24,7 @@ from surfcheck.part import Part
 SAMPLES_PER_SEGMENT = 8  # even samples along a typical cut segment (common practice, no published source)
 MIN_SAMPLES = 64  # samples of one side's cut at least (a plane is one long segment)
 MAX_SAMPLES = 2000  # ... and at most
+END_FLOOR_INTERVALS = 5  # the spline's first intervals whose rates give the curvature's second derivative
 SPLINE_POINTS = 4  # distinct vertices a side needs to be interpolated rather than cut
 ZIGZAG_TURN = 0.02  # radians; a turn of the node polygon smaller than this has no direction
 CUT_WINDOW_SEGMENTS = 2.0  # fit scale of a cut side, in mean segments: its windows (3 scales) average
@@ -174,17 +175,32 @@ def _end_floor(spline, chord: np.ndarray, axis: np.ndarray) -> tuple[float, floa
     """The interpolation's uncertainty of curvature and rate at the seam end (chord 0).
 
     Between the seam and the first node the mesh holds no vertex, and a cubic spline's curvature is
-    piecewise linear, so at the end it extrapolates the curvature of the interior linearly: a
-    curvature that builds up as s^2 from the seam (a G3 blend) reads as a jump, one that builds up
-    linearly (a G2 blend) reads right, and the nodes cannot tell the two apart. The end value is
-    therefore known only to within the change of the curvature over that first interval (the
-    remainder of the zeroth-order extrapolation, dk = |kappa(t1) - kappa(0)|), the rate, the
-    curvature's slope over that interval, to within dk / t1. Both vanish where the curvature is
-    constant along the section (an arc), so a fillet still grades exactly. The heading gets no such
-    term: the nodes beyond the first hold it (docs/continuity.md, section 8)."""
+    piecewise linear, so at the end (not-a-knot: one cubic over the first two intervals) it
+    extrapolates the curvature linearly from the nodes t1, t2: a curvature that builds up as s^2
+    from the seam (a G3 blend, whose first row a CAD mesher puts far out because the surface is
+    nearly flat there) reads as a jump. Two bounds of that error, the smaller taken:
+
+    - the Lagrange remainder of linear interpolation at 0, k'' t1 t2 / 2 for the curvature and
+      k'' (t1 + t2) / 2 for the rate, with k'' the largest change of the spline's rate (constant on
+      each interval) between its first END_FLOOR_INTERVALS intervals per distance between their
+      middles; it vanishes where the curvature is linear along the section (a clothoid), but uneven
+      nodes make a spline's rate zigzag and this bound large on an arc;
+    - the curvature's change over the unobserved interval, |k(t1) - k(0)|, and that change per t1
+      for the rate (the extrapolated end value differs from the true one by at most that where the
+      curvature is monotone over the interval); it vanishes on an arc, but not on a clothoid.
+
+    Both vanish on an arc, so a fillet still grades exactly; on the housing's lip blend (truth 0) the
+    floor is 0.03 /mm beside a reading of 0.02."""
+    pieces = min(len(chord) - 1, END_FLOOR_INTERVALS)
+    if pieces < 3:
+        return (0.0, 0.0, 0.0, 0.0)
+    middles = 0.5 * (chord[1:pieces + 1] + chord[:pieces])
+    _, rate = _curvature_and_rate(spline, middles, axis)
+    second = float(np.max(np.abs(np.diff(rate) / np.diff(middles))))
     kappa, _ = _curvature_and_rate(spline, chord[:2], axis)
     change = float(abs(kappa[1] - kappa[0]))
-    return (0.0, 0.0, change, change / float(chord[1]))
+    t1, t2 = float(chord[1]), float(chord[2])
+    return (0.0, 0.0, min(second * t1 * t2 / 2.0, change), min(second * (t1 + t2) / 2.0, change / t1))
 
 
 def _curvature_and_rate(spline, t: np.ndarray, axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

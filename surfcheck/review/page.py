@@ -151,7 +151,10 @@ def _seam_section(seam: dict, document: dict, pictures: list[Picture]) -> str:
     coverage = float(document["tolerance"]["coverage"])
     facts = (f"<p>Groups A | B: <b>{escape(seam['groups'][0])}</b> | <b>{escape(seam['groups'][1])}</b>;"
              f" length {_num(seam['length'])} {u}; {seam['stations']} stations;"
-             f" {'welded' if seam['welded'] else 'separate shells'}; achieved {_achieved(seam)}.</p>")
+             f" {'welded' if seam['welded'] else 'separate shells'}; achieved {_achieved(seam)}."
+             f" A station is ok where value + {_num(coverage)} u is within the tolerance; the seam fails only where"
+             f" a station's value - {_num(seam['decision']['fail_coverage'], 3)} u exceeds it (Sidak over its"
+             f" {seam['stations']} stations, so a conforming seam fails as rarely as one station).</p>")
     todo = "".join(f'<p class="advice"><b>What to do:</b> {escape(a["text"])}</p>'
                    for a in document["advice"] if a["seam"] == seam["id"])
     figures = "".join(_figure(p) for p in pictures)

@@ -175,44 +175,28 @@ def grade(
     On a scan without groups, `--seam auto` segments it into faces and fillets first, and `--nominal`
     labels it from a grouped nominal part. A STEP part is graded on its B-rep faces (exact) unless
     `--method mesh` asks for its tessellation."""
-    from surfcheck.grading.document import parse_requirement, run_document
-    from surfcheck.grading.exact import EXACT, grade_brep
-    from surfcheck.grading.run import GradeOptions, grade_part
-    from surfcheck.grading.tolerances import load_profile
+    from surfcheck.grading.request import GradeRequest, grade_prepared, prepare_part
+    from surfcheck.grading.run import GradeOptions
 
     if report_dir is not None:
         from surfcheck.review.folder import FIXED_FILES, check_folder, write_report
 
         check_outputs([report_dir, *(report_dir / f for f in FIXED_FILES)], [part, nominal])
         check_folder(report_dir)
-    required = parse_requirement(require)
-    profile = load_profile(tolerance)
-    if method not in (None, "exact", "mesh"):
-        raise InputError(f"--method {method!r}: use exact or mesh")
-    loaded = read_part(part, units=units, deflection=deflection)
-    exact = (method or ("exact" if loaded.brep is not None else "mesh")) == "exact"
-    if exact and loaded.brep is None:
-        raise InputError(f"{part}: --method exact needs a STEP part (B-rep faces); a mesh is graded with --method mesh")
-    if exact and report_dir is not None:
+    request = GradeRequest(tuple(seam), tolerance, require, GradeOptions(stations, spacing, strip, reach, search),
+                           units, deflection, method, str(nominal) if nominal is not None else None)
+    request.profile()  # a bad profile is reported before the part is read
+    prepared = prepare_part(part, request)
+    if prepared.exact and report_dir is not None:
         raise InputError("--report draws the mesh sections; add --method mesh to grade the tessellation with a report")
-    reference = read_part(nominal, units=units, deflection=deflection).part if nominal is not None else None
-    chosen = select_seams(loaded.part, list(seam), reference)
-    options = GradeOptions(stations, spacing, strip, reach, search)
+
     def progress(seams):
         return _progress(seams, "grading seams", quiet=as_json)
 
-    if exact:
-        run = grade_brep(chosen.part, loaded.brep, chosen.seams, profile, options, progress=progress)
-    else:
-        run = grade_part(chosen.part, chosen.seams, profile, options, progress=progress)
-    if not run.grades:
-        raise InputError("; ".join(f"{s.curve.id}: {s.reason}" for s in run.not_graded))
-    parameters = {"seams": list(seam), "nominal": str(nominal) if nominal else None,
-                  "method": EXACT if exact else "mesh", "deflection": deflection, **chosen.notes}
-    document = run_document(run, required, parameters)
+    run, document = grade_prepared(prepared, request, progress)
     if report_dir is not None:
-        page = write_report(run, required, report_dir, parameters=parameters, summary=part_summary(loaded),
-                            quiet=as_json)
+        page = write_report(run, request.required, report_dir, parameters=document["parameters"],
+                            summary=part_summary(prepared.loaded), quiet=as_json)
     if as_json:
         print_json(document)
     else:

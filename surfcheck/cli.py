@@ -228,6 +228,79 @@ def report(
 
 
 @app.command()
+def lot(
+    parts: list[Path] = typer.Argument(..., help="Part files, folders of part files, or .txt files listing part paths."),
+    seam: list[str] = SEAM_OPT,
+    out: Path = typer.Option(..., "--out", help="Lot folder: parts/NAME/result.json, lot.parquet, lot.csv, index.html."),
+    nominal: Optional[Path] = NOMINAL_OPT,
+    tolerance: str = TOLERANCE_OPT,
+    require: Optional[str] = REQUIRE_OPT,
+    scheduler: Optional[str] = typer.Option(None, "--scheduler", help="A running Dask scheduler, tcp://HOST:PORT (default: a local cluster)."),
+    workers: Optional[int] = typer.Option(None, "--workers", help="Worker processes of the local cluster (default: one per core)."),
+    force: bool = typer.Option(False, "--force", help="Grade every part again, also those DIR holds already."),
+    stations: Optional[int] = STATIONS_OPT,
+    spacing: Optional[float] = SPACING_OPT,
+    units: str = UNITS_OPT,
+    deflection: Optional[float] = DEFLECTION_OPT,
+    as_json: bool = JSON_OPT,
+) -> None:
+    """Grade a production lot, each part as `grade` does, one task per part on Dask distributed; write
+    each part's result as it arrives, the lot table (Parquet, CSV) and the lot page."""
+    from surfcheck.grading.request import GradeRequest
+    from surfcheck.grading.run import GradeOptions
+    from surfcheck.lots.run import run_lot
+
+    request = GradeRequest(tuple(seam), tolerance, require, GradeOptions(stations, spacing), units, deflection,
+                           None, str(nominal) if nominal is not None else None)
+    result = run_lot(list(parts), request, out, scheduler=scheduler, workers=workers, force=force,
+                     progress=None if as_json else _lot_progress)
+    summary = result.summary()
+    if as_json:
+        print_json(summary)
+    else:
+        print_lot(summary)
+    raise typer.Exit(1 if summary["verdict"] == "fail" or summary["errors"] else 0)
+
+
+def _lot_progress(total: int):
+    """A progress bar over the parts of a lot on stderr (when it is a terminal); returns advance(what)."""
+    if not sys.stderr.isatty():
+        return None
+    from rich.progress import Progress
+
+    bar = Progress(console=Console(stderr=True), transient=True)
+    task = bar.add_task("grading parts", total=total)
+    bar.start()
+
+    def advance(what: str) -> None:
+        bar.update(task, advance=1, description=what)
+        if bar.finished:
+            bar.stop()
+
+    return advance
+
+
+def print_lot(summary: dict) -> None:
+    """The lot in a few lines: parts, yield per seam, failing parts, error rows, verdict."""
+    console.print(f"{summary['parts']} parts: {summary['graded']} graded ({summary['kept']} kept from an earlier run),"
+                  f" {len(summary['errors'])} with errors")
+    table = Table("seam", "parts graded", "meeting", "yield", title=f"lot in {summary['out']}")
+    for item in summary["seams"]:
+        share = "" if item["yield"] is None else f"{100 * item['yield']:.1f} %"
+        table.add_row(item["seam"], str(item["graded"]), "" if item["meeting"] is None else str(item["meeting"]), share)
+    console.print(table)
+    if summary["failing"]:
+        console.print("failing parts: " + ", ".join(summary["failing"]))
+    for item in summary["errors"]:
+        console.print(f"[yellow]error row[/yellow] {item['part']}: {item['error']}")
+    if summary["require"]:
+        colour = "green" if summary["verdict"] == "pass" else "red"
+        console.print(f"requirement {summary['require']}: [{colour}]{summary['verdict']}[/{colour}]")
+    console.print("written: " + ", ".join(summary["files"].values()))
+    console.print(f"[dim]{summary['caution']}[/dim]")
+
+
+@app.command()
 def blend(
     parts: list[Path] = typer.Argument(..., help="PART (both chains on it) or PART_A PART_B."),
     chain_from: str = typer.Option(..., "--from", help="Boundary chain id on the (first) part, from `surfcheck loops`."),

@@ -182,3 +182,25 @@ def test_parts_from_folders_and_listings(tmp_path):
     assert Path(parts[2].path) == tmp_path / "b" / "x.stl"
     with pytest.raises(InputError):
         collect_parts([tmp_path / "a" / "notes.md"])
+
+
+def test_the_lot_page(lot):
+    from html.parser import HTMLParser
+
+    page = (lot["out"] / "index.html").read_text()
+    sources = []
+
+    class Images(HTMLParser):
+        def handle_starttag(self, tag, attrs):
+            if tag == "img":
+                sources.append(dict(attrs)["src"])
+
+    Images().feed(page)
+    assert len(sources) == 2 * len(SEAMS) and all((lot["out"] / s).stat().st_size > 1000 for s in sources)
+    assert "Continuity grades are geometric" in page and "ISO 7870-2" in page
+    assert "top | front-blend" in page and "front-blend | front-wall" in page
+    worst = page[page.index('id="worst"'):page.index('id="errors"')]
+    listed = sorted((f"scan-0{n}" for n in range(1, 7)), key=lambda name: worst.find(f">{name}<") % len(worst))
+    assert all(f">{name}<" in worst for name in listed) and set(listed[:2]) == set(DEFECTIVE)  # the defects lead
+    errors = page[page.index('id="errors"'):page.index('id="request"')]
+    assert "corrupt.stl" in errors

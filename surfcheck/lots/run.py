@@ -5,7 +5,7 @@ then write the lot table and the lot page."""
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 from surfcheck.errors import InputError
@@ -13,6 +13,7 @@ from surfcheck.io import check_outputs
 from surfcheck.grading.request import GradeRequest
 from surfcheck.lots.engine import lot_client, stream_grades
 from surfcheck.lots.parts import LotPart, collect_parts
+from surfcheck.lots.review import PAGE_FILE, write_lot_page
 from surfcheck.lots.store import PARTS_FOLDER, PartRecord, load_record, part_key, save_record
 from surfcheck.lots.table import CSV_FILE, TABLE_FILE, write_tables
 from surfcheck.lots.yields import ERROR, lot_verdict, part_verdict, seam_yields
@@ -70,7 +71,8 @@ def run_lot(arguments: list[str | os.PathLike], request: GradeRequest, out: str 
     request : GradeRequest
         The grading request every part is graded by (usually through a nominal part).
     out : path
-        The lot folder: parts/NAME/result.json per part, lot.parquet, lot.csv, index.html.
+        The lot folder: parts/NAME/result.json per part, lot.parquet, lot.csv, index.html and its
+        charts.
     scheduler : str, optional
         Address of a running Dask scheduler (tcp://HOST:PORT); a LocalCluster when None.
     workers : int, optional
@@ -89,7 +91,7 @@ def run_lot(arguments: list[str | os.PathLike], request: GradeRequest, out: str 
     if out.exists() and not out.is_dir():
         raise InputError(f"{out}: exists and is not a folder; give another --out")
     parts = collect_parts(arguments)
-    check_outputs([out, out / PARTS_FOLDER, out / TABLE_FILE, out / CSV_FILE],
+    check_outputs([out, out / PARTS_FOLDER, out / TABLE_FILE, out / CSV_FILE, out / PAGE_FILE],
                   [*(p.path for p in parts), request.nominal])
     request.profile()
     nominal = request.read_nominal()
@@ -107,7 +109,11 @@ def run_lot(arguments: list[str | os.PathLike], request: GradeRequest, out: str 
                                      progress)
     ordered = tuple(sorted(records.values(), key=lambda r: r.serial))
     table, csv = write_tables(out, list(ordered))
-    return LotResult(out, ordered, kept, request.required, {"table": table, "csv": csv})
+    result = LotResult(out, ordered, kept, request.required, {"table": table, "csv": csv})
+    context = {"nominal": request.nominal or "none", "seams": ", ".join(request.seams),
+               "tolerance profile": request.tolerance, "requirement": request.require or "none"}
+    page = write_lot_page(out, [records[p.name] for p in parts], request.required, result.summary(), context)
+    return replace(result, files={**result.files, "page": page})
 
 
 def next_serial(records: dict[str, PartRecord]) -> int:

@@ -1,5 +1,6 @@
 """The demo's production lot: scans of the housing shell (demo.scenario) as a line would deliver
-them, each in its own pose with its own measurement noise, and a few with a defect built in:
+them, each in its own pose with its own measurement noise, and a few with a defect built in
+(run_lot_demo grades a dozen through the nominal on a local Dask cluster):
 
 - "flattened-blend": the front blend's curvature ramps (clothoids) flattened into one circular arc
   through the same end points, so the curvature jumps at both of its seams (G1 only where G2 is built);
@@ -14,6 +15,8 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from surfcheck.io import save_part
+from surfcheck.grading.request import GradeRequest
+from surfcheck.lots.run import run_lot
 from surfcheck.part import Part
 from surfcheck.demo.scenario import EDGE, SCAN_NOISE, housing_part, housing_profile
 from surfcheck.demo.shapes import Profile, add_normal_noise, arc, corner
@@ -22,6 +25,8 @@ DEFECTS = ("flattened-blend", "kinked-blend")
 KINK_DEG = 6.0  # degrees of the kinked part's corner: three times the scan profile's G1 tolerance
 POSE_DEG, POSE_MM = 1.5, 0.5  # spread of a scan's pose: rotation about each axis, shift along each
 BLEND = ("front-blend-in", "front-blend-arc", "front-blend-out")
+LOT_SEAMS = ("top:front-blend", "front-blend:front-wall")  # the blend the defects touch, built G2
+LOT_TOLERANCE, LOT_REQUIREMENT = "scan", "G2"
 
 
 def lot_profile(defect: str | None = None) -> Profile:
@@ -72,3 +77,16 @@ def write_lot(folder: str | Path, count: int = 12, defects: dict[int, str] | Non
         name = f"scan-{number:02d}.stl"
         written[name] = save_part(lot_scan(100 + number, defects.get(number), edge), folder / name)
     return written
+
+
+def run_lot_demo(out: str | Path, nominal: str | Path, say=print) -> dict:
+    """Write a dozen scans to ``out``/scans (the 4th flattened, the 9th kinked) and grade them as a lot
+    through ``nominal`` on a local Dask cluster; the lot folder is ``out``. Returns the lot's summary."""
+    out = Path(out)
+    write_lot(out / "scans")
+    request = GradeRequest(LOT_SEAMS, LOT_TOLERANCE, LOT_REQUIREMENT, nominal=str(nominal))
+    summary = run_lot([out / "scans"], request, out, force=True).summary()
+    yields = ", ".join(f"{s['seam']} {100 * s['yield']:.0f} %" for s in summary["seams"])
+    say(f"lot of {summary['parts']} scans through {Path(nominal).name} at {LOT_REQUIREMENT} ({LOT_TOLERANCE} profile):"
+        f" yield {yields}; failing {', '.join(summary['failing']) or 'none'}; lot page {summary['files']['page']}")
+    return summary

@@ -195,6 +195,9 @@ def run_demo(out: str | Path, say=print) -> dict:
             results["grades"][f"{name} (segmented)"] = _grade_and_review(
                 replace(loaded, part=segmentation.part), seams_of_segmentation(segmentation),
                 out / f"{stem}-segmented-review", say, "scan", built)
+    from surfcheck.demo.lot import run_lot_demo
+
+    results["lot"] = run_lot_demo(out / "lot", samples["housing.obj"], say)
     _write_json(out / "demo.json", results)
     say(CAUTION)
     return results

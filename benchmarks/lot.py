@@ -47,9 +47,10 @@ def sequential(scans: dict, request: GradeRequest) -> tuple[float, float, list[s
 
 
 def on_cluster(client, address: str, root: Path, request: GradeRequest, run: int) -> tuple[float, float, list[str]]:
-    """Wall seconds of the lot (grading, table, page) and the workers' CPU seconds, and verdicts."""
+    """Wall seconds of the lot (grading, table, lot page; no part pages, as in the sequential run)
+    and the workers' CPU seconds, and verdicts."""
     cpu, wall = _cpu_seconds(client), time.perf_counter()
-    result = run_lot([root / "scans"], request, root / f"out-{run}", scheduler=address)
+    result = run_lot([root / "scans"], request, root / f"out-{run}", scheduler=address, pages="none")
     wall = time.perf_counter() - wall
     verdicts = [r.document["verdict"] for r in sorted(result.records, key=lambda r: r.name)]
     return wall, _cpu_seconds(client) - cpu, verdicts

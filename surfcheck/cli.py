@@ -238,6 +238,7 @@ def lot(
     scheduler: Optional[str] = typer.Option(None, "--scheduler", help="A running Dask scheduler, tcp://HOST:PORT (default: a local cluster)."),
     workers: Optional[int] = typer.Option(None, "--workers", help="Worker processes of the local cluster (default: one per core)."),
     force: bool = typer.Option(False, "--force", help="Grade every part again, also those DIR holds already."),
+    pages: str = typer.Option("failing", "--pages", help="Review pages of their own for: failing parts, all, or none."),
     stations: Optional[int] = STATIONS_OPT,
     spacing: Optional[float] = SPACING_OPT,
     units: str = UNITS_OPT,
@@ -252,7 +253,7 @@ def lot(
 
     request = GradeRequest(tuple(seam), tolerance, require, GradeOptions(stations, spacing), units, deflection,
                            None, str(nominal) if nominal is not None else None)
-    result = run_lot(list(parts), request, out, scheduler=scheduler, workers=workers, force=force,
+    result = run_lot(list(parts), request, out, scheduler=scheduler, workers=workers, force=force, pages=pages,
                      progress=None if as_json else _lot_progress)
     summary = result.summary()
     if as_json:

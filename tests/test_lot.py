@@ -142,7 +142,7 @@ def test_killing_a_worker_loses_no_part(lot):
                     killed.append(busy[0])
             return advance
 
-        result = run_lot([lot["scans"]], request, lot["root"] / "killed", scheduler=cluster.scheduler_address,
+        result = run_lot([lot["scans"]], request, lot["root"] / "killed", scheduler=cluster.scheduler_address, pages="none",
                          progress=progress)
     assert killed
     names = [r.name for r in result.records]
@@ -200,7 +200,12 @@ def test_the_lot_page(lot):
     assert "Continuity grades are geometric" in page and "ISO 7870-2" in page
     assert "top | front-blend" in page and "front-blend | front-wall" in page
     worst = page[page.index('id="worst"'):page.index('id="errors"')]
-    listed = sorted((f"scan-0{n}" for n in range(1, 7)), key=lambda name: worst.find(f">{name}<") % len(worst))
-    assert all(f">{name}<" in worst for name in listed) and set(listed[:2]) == set(DEFECTIVE)  # the defects lead
+    link = 'href="parts/{}/result.json"'.format
+    listed = sorted((f"scan-0{n}" for n in range(1, 7)), key=lambda name: worst.find(link(name)) % len(worst))
+    assert all(link(name) in worst for name in listed) and set(listed[:2]) == set(DEFECTIVE)  # the defects lead
     errors = page[page.index('id="errors"'):page.index('id="request"')]
     assert "corrupt.stl" in errors
+    # each failing part, and only it, has its own review page (--pages failing), linked from the list
+    reviewed = {p.parent.parent.name for p in (lot["out"] / "parts").glob("*/review/index.html")}
+    assert reviewed == set(DEFECTIVE)
+    assert all(f'href="parts/{name}/review/index.html"' in worst for name in DEFECTIVE)

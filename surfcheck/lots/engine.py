@@ -56,8 +56,8 @@ def task_key(part: LotPart, key: str) -> str:
     return f"surfcheck-part-{part.name}-{key}"
 
 
-def stream_grades(client, parts: list[tuple[LotPart, str]], request: GradeRequest,
-                  nominal: Part | None) -> Iterator[tuple[LotPart, TaskResult]]:
+def stream_grades(client, parts: list[tuple[LotPart, str]], request: GradeRequest, nominal: Part | None,
+                  pages: str = "failing") -> Iterator[tuple[LotPart, TaskResult]]:
     """Grade parts on the cluster, one task each, and yield (part, result) as each finishes.
 
     Parameters
@@ -70,6 +70,8 @@ def stream_grades(client, parts: list[tuple[LotPart, str]], request: GradeReques
         The lot's request.
     nominal : Part or None
         Sent to every worker once (Client.scatter with broadcast), not once per task.
+    pages : str
+        Which parts' review pages the tasks draw (task.PAGES).
 
     Yields
     ------
@@ -80,8 +82,8 @@ def stream_grades(client, parts: list[tuple[LotPart, str]], request: GradeReques
     from dask.distributed import as_completed
 
     shared = client.scatter(nominal, broadcast=True) if nominal is not None else None
-    futures = {client.submit(grade_lot_part, part, request, shared, key=task_key(part, key), retries=RETRIES): part
-               for part, key in parts}
+    futures = {client.submit(grade_lot_part, part, request, shared, pages, key=task_key(part, key),
+                             retries=RETRIES): part for part, key in parts}
     for future in as_completed(futures):
         part = futures.pop(future)
         try:

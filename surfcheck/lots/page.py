@@ -1,7 +1,7 @@
 """The lot page, DIR/index.html: the lot's verdict and each seam's yield, per seam its run chart and
 histogram with the individuals chart's control limits, the worst parts (each linked to its
 result.json), the error rows, the request, and the cautions. Plain HTML in the style of the part
-review page (review.page)."""
+review page (review.page); a part with a review page of its own links to it."""
 
 from __future__ import annotations
 
@@ -56,14 +56,22 @@ def _seam_section(review: SeamReview) -> str:
     return f'<section id="{_anchor(name)}"><h3>{escape(name)}</h3><ul class="small">{facts}</ul>{figures}</section>'
 
 
-def _worst_table(worst: list[WorstPart]) -> str:
-    rows = [[f'<a href="parts/{escape(w.part, quote=True)}/result.json">{escape(w.part)}</a>', _status(w.verdict),
-             escape(w.seam), escape(w.order), _num(w.value), _num(w.tolerance), _num(w.ratio, 3)] for w in worst]
+def _part_links(name: str, reviewed: set[str]) -> str:
+    """The part's name, linked to its review page when it has one, and a link to its result.json."""
+    folder = f"parts/{escape(name, quote=True)}"
+    shown = f'<a href="{folder}/review/index.html">{escape(name)}</a>' if name in reviewed else escape(name)
+    return f'{shown} (<a href="{folder}/result.json">result</a>)'
+
+
+def _worst_table(worst: list[WorstPart], reviewed: set[str]) -> str:
+    rows = [[_part_links(w.part, reviewed), _status(w.verdict), escape(w.seam), escape(w.order), _num(w.value),
+             _num(w.tolerance), _num(w.ratio, 3)] for w in worst]
     return _table(["part", "verdict", "seam", "order", "worst value", "tolerance", "value / tolerance"], rows,
                   {4, 5, 6})
 
 
-def lot_page(summary: dict, seams: list[SeamReview], worst: list[WorstPart], context: dict) -> str:
+def lot_page(summary: dict, seams: list[SeamReview], worst: list[WorstPart], context: dict,
+             reviewed: set[str]) -> str:
     """The lot page as text.
 
     Parameters
@@ -76,6 +84,8 @@ def lot_page(summary: dict, seams: list[SeamReview], worst: list[WorstPart], con
         The parts to list first (series.worst_parts).
     context : dict
         Facts for the request table (tolerance profile, nominal, seams, version, time).
+    reviewed : set of str
+        The parts with a review page of their own (parts/NAME/review/index.html).
     """
     verdict = summary["verdict"]
     requirement = summary["require"] or "none"
@@ -94,7 +104,7 @@ def lot_page(summary: dict, seams: list[SeamReview], worst: list[WorstPart], con
         f' <span class="verdict {escape(verdict.replace(" ", "-"))}">{escape(verdict)}</span></p>'
         f"{_yield_table(seams)}</section>"
         f'<section id="seams"><h2>Seams over the lot</h2>{"".join(_seam_section(s) for s in seams)}</section>'
-        f'<section id="worst"><h2>Worst parts</h2>{_worst_table(worst)}</section>'
+        f'<section id="worst"><h2>Worst parts</h2>{_worst_table(worst, reviewed)}</section>'
         f'<section id="errors"><h2>Error rows</h2>{errors}</section>'
         f'<section id="request"><h2>Request and tool</h2>{request}</section></body></html>\n'
     )

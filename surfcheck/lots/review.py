@@ -13,7 +13,7 @@ from surfcheck.lots.charts import plot_histogram, plot_run_chart
 from surfcheck.lots.control import individuals_limits
 from surfcheck.lots.page import SeamReview, lot_page
 from surfcheck.lots.series import seam_series, worst_parts
-from surfcheck.lots.store import PartRecord
+from surfcheck.lots.store import REVIEW_FOLDER, PartRecord, part_folder
 from surfcheck.lots.yields import seam_yields
 
 PAGE_FILE = "index.html"
@@ -61,6 +61,7 @@ def write_lot_page(out: Path, records: list[PartRecord], required: int | None, s
         reviews.append(SeamReview(seam, pictures, limits, beyond))
     context = {**context, "surfcheck": __version__,
                "written": datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")}
-    page = lot_page(summary, reviews, worst_parts(records, required), context)
+    reviewed = {r.name for r in records if (part_folder(out, r.name) / REVIEW_FOLDER / PAGE_FILE).is_file()}
+    page = lot_page(summary, reviews, worst_parts(records, required), context, reviewed)
     write_atomic(out / PAGE_FILE, page.encode("utf-8"))
     return out / PAGE_FILE

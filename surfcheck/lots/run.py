@@ -14,6 +14,7 @@ from surfcheck.grading.request import GradeRequest
 from surfcheck.lots.engine import lot_client, stream_grades
 from surfcheck.lots.parts import LotPart, collect_parts
 from surfcheck.lots.review import PAGE_FILE, write_lot_page
+from surfcheck.lots.task import PAGES
 from surfcheck.lots.store import PARTS_FOLDER, PartRecord, load_record, part_key, save_record
 from surfcheck.lots.table import CSV_FILE, TABLE_FILE, write_tables
 from surfcheck.lots.yields import ERROR, lot_verdict, part_verdict, seam_yields
@@ -61,7 +62,7 @@ class LotResult:
 
 def run_lot(arguments: list[str | os.PathLike], request: GradeRequest, out: str | os.PathLike, *,
             scheduler: str | None = None, workers: int | None = None, force: bool = False,
-            progress=None) -> LotResult:
+            pages: str = "failing", progress=None) -> LotResult:
     """Grade a production lot: every part as `surfcheck grade` grades it, one Dask task each.
 
     Parameters
@@ -78,7 +79,10 @@ def run_lot(arguments: list[str | os.PathLike], request: GradeRequest, out: str 
     workers : int, optional
         Worker processes of the LocalCluster (default os.cpu_count()).
     force : bool
-        Grade every part again, even those the folder holds for the same file and request.
+        Grade every part again, even those the folder holds for the same file, request and pages.
+    pages : str
+        Which graded parts get their own review page in parts/NAME/review/: "failing" (those that
+        fail the requirement), "all" or "none" (task.PAGES).
     progress : callable, optional
         progress(total) returns a callable advance(name) called as each part arrives.
 
@@ -88,6 +92,8 @@ def run_lot(arguments: list[str | os.PathLike], request: GradeRequest, out: str 
         The records, the parts kept and the files written.
     """
     out = Path(out)
+    if pages not in PAGES:
+        raise InputError(f"--pages {pages!r}: use one of {', '.join(PAGES)}")
     if out.exists() and not out.is_dir():
         raise InputError(f"{out}: exists and is not a folder; give another --out")
     parts = collect_parts(arguments)
@@ -95,7 +101,7 @@ def run_lot(arguments: list[str | os.PathLike], request: GradeRequest, out: str 
                   [*(p.path for p in parts), request.nominal])
     request.profile()
     nominal = request.read_nominal()
-    keyed = [(part, part_key(part, request)) for part in parts]
+    keyed = [(part, part_key(part, request, pages)) for part in parts]
     records: dict[str, PartRecord] = {}
     if not force:
         for part, key in keyed:
@@ -105,8 +111,8 @@ def run_lot(arguments: list[str | os.PathLike], request: GradeRequest, out: str 
     kept = tuple(records)
     todo = [(part, key) for part, key in keyed if part.name not in records]
     if todo:
-        records |= _grade_on_cluster(out, todo, request, nominal, scheduler, workers, next_serial(records),
-                                     progress)
+        records |= _grade_on_cluster(out, todo, request, nominal, next_serial(records), progress,
+                                     scheduler=scheduler, workers=workers, pages=pages)
     ordered = tuple(sorted(records.values(), key=lambda r: r.serial))
     table, csv = write_tables(out, list(ordered))
     result = LotResult(out, ordered, kept, request.required, {"table": table, "csv": csv})
@@ -121,20 +127,20 @@ def next_serial(records: dict[str, PartRecord]) -> int:
     return max((r.serial for r in records.values()), default=0) + 1
 
 
-def _grade_on_cluster(out: Path, todo: list[tuple[LotPart, str]], request: GradeRequest, nominal, scheduler,
-                      workers, serial: int, progress) -> dict[str, PartRecord]:
+def _grade_on_cluster(out: Path, todo: list[tuple[LotPart, str]], request: GradeRequest, nominal, serial: int,
+                      progress, *, scheduler: str | None, workers: int | None, pages: str) -> dict[str, PartRecord]:
     """Grade the parts still to do, saving each record as it arrives; a part arrives once."""
     keys = dict((part.name, key) for part, key in todo)
     advance = progress(len(todo)) if progress else None
     arrived: dict[str, PartRecord] = {}
     with lot_client(scheduler, workers) as client:
-        for part, result in stream_grades(client, todo, request, nominal):
+        for part, result in stream_grades(client, todo, request, nominal, pages):
             if part.name in arrived:
                 continue
             record = PartRecord(part.name, part.path, serial, keys[part.name], result.document, result.error)
             serial += 1
             if result.of_part:
-                save_record(out, record)
+                save_record(out, record, result.review)
             arrived[part.name] = record
             if advance:
                 advance(f"{part.name}: {ERROR if record.document is None else part_verdict(record)}")

@@ -1,6 +1,6 @@
 """Each part's result kept in the lot folder as it arrives: DIR/parts/NAME/result.json (the document
-`grade --json` prints) and DIR/parts/NAME/entry.json (name, source, serial, the key of what was
-graded, the error). entry.json is written last, atomically, so a part counts as done only once its
+`grade --json` prints), DIR/parts/NAME/review/ (its review page, when drawn) and
+DIR/parts/NAME/entry.json (name, source, serial, the key of what was graded, the error). entry.json is written last, atomically, so a part counts as done only once its
 result is complete; a rerun keeps a part whose key still matches (same file, same request)."""
 
 from __future__ import annotations
@@ -8,6 +8,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import shutil
 from dataclasses import asdict, dataclass
 from pathlib import Path
 
@@ -15,7 +16,7 @@ from surfcheck.io import write_atomic
 from surfcheck.grading.request import GradeRequest
 from surfcheck.lots.parts import LotPart
 
-PARTS_FOLDER, ENTRY_FILE, RESULT_FILE = "parts", "entry.json", "result.json"
+PARTS_FOLDER, ENTRY_FILE, RESULT_FILE, REVIEW_FOLDER = "parts", "entry.json", "result.json", "review"
 
 
 @dataclass(frozen=True)
@@ -45,10 +46,11 @@ def file_fingerprint(path: str | os.PathLike) -> dict | None:
     return {"size": status.st_size, "mtime_ns": status.st_mtime_ns}
 
 
-def part_key(part: LotPart, request: GradeRequest) -> str:
-    """A hash of what grading ``part`` depends on: its file (path, size, time), the request and
-    the nominal file it names."""
+def part_key(part: LotPart, request: GradeRequest, pages: str) -> str:
+    """A hash of what grading ``part`` depends on: its file (path, size, time), the request, the
+    nominal file it names and which review pages are drawn."""
     what = {"path": os.path.realpath(part.path), "file": file_fingerprint(part.path), "request": asdict(request),
+            "pages": pages,
             "nominal": file_fingerprint(request.nominal) if request.nominal else None}
     return hashlib.sha256(json.dumps(what, sort_keys=True, default=str).encode()).hexdigest()[:24]
 
@@ -58,14 +60,19 @@ def part_folder(out: Path, name: str) -> Path:
     return out / PARTS_FOLDER / name
 
 
-def save_record(out: Path, record: PartRecord) -> None:
-    """Write a part's result.json (or remove a stale one when it has an error), then its entry.json."""
+def save_record(out: Path, record: PartRecord, review: dict[str, bytes] | None = None) -> None:
+    """Write a part's result.json (or remove a stale one when it has an error) and its review files
+    (``review``: name -> bytes; a stale review folder is removed), then its entry.json."""
     folder = part_folder(out, record.name)
     result = folder / RESULT_FILE
     if record.document is not None:
         write_atomic(result, _json_bytes(record.document))
     elif result.exists():
         result.unlink()
+    if (folder / REVIEW_FOLDER).is_dir():
+        shutil.rmtree(folder / REVIEW_FOLDER)
+    for name, payload in (review or {}).items():
+        write_atomic(folder / REVIEW_FOLDER / name, payload)
     write_atomic(folder / ENTRY_FILE, _json_bytes(record.entry()))
 
 

@@ -142,8 +142,8 @@ def test_killing_a_worker_loses_no_part(lot):
                     killed.append(busy[0])
             return advance
 
-        result = run_lot([lot["scans"]], request, lot["root"] / "killed", scheduler=cluster.scheduler_address, pages="none",
-                         progress=progress)
+        result = run_lot([lot["scans"]], request, lot["root"] / "killed", scheduler=cluster.scheduler_address,
+                         pages="none", progress=progress)
     assert killed
     names = [r.name for r in result.records]
     assert sorted(names) == sorted({*names}) and len(names) == 7  # every part once

@@ -45,9 +45,8 @@ def lot_profile(defect: str | None = None) -> Profile:
         replaced = [arc(radius, p.name, angle_deg=np.degrees(turn) * w) for p, w in zip(blend, share)]
     elif defect == "kinked-blend":
         middle = blend[1]
-        replaced = [corner(KINK_DEG), blend[0],
-                    arc(1.0 / middle.k_start, middle.name, angle_deg=np.degrees(middle.k_start * middle.length) - KINK_DEG),
-                    blend[2]]
+        shorter = np.degrees(middle.k_start * middle.length) - KINK_DEG  # the corner takes over KINK_DEG of the turn
+        replaced = [corner(KINK_DEG), blend[0], arc(1.0 / middle.k_start, middle.name, angle_deg=shorter), blend[2]]
     else:
         raise ValueError(f"unknown defect {defect!r}; one of {', '.join(DEFECTS)}")
     pieces[first:first + len(BLEND)] = replaced

@@ -40,9 +40,10 @@ def plot_run_chart(series: list[SeamSeries], path: str | os.PathLike) -> Path:
         limits = individuals_limits(s.values)
         if limits is not None:
             ax.axhline(limits.centre, color=CENTRE_COLOUR, linewidth=1.0, label=f"centre {limits.centre:.3g}")
-            for value, name in ((limits.upper, "upper"), (limits.lower, "lower")):
-                ax.axhline(value, color=LIMIT_COLOUR, linestyle="--", linewidth=1.0,
-                           label=f"control limits {limits.lower:.3g} .. {limits.upper:.3g}" if name == "upper" else None)
+            label = f"control limits {limits.lower:.3g} .. {limits.upper:.3g}"
+            for value in (limits.upper, limits.lower):
+                ax.axhline(value, color=LIMIT_COLOUR, linestyle="--", linewidth=1.0, label=label)
+                label = None  # one legend entry for both limits
             for i in np.flatnonzero(limits.outside(s.values)):
                 ax.annotate(s.parts[i], (x[i], s.values[i]), textcoords="offset points", xytext=(4, 4), fontsize=8)
         ax.set_xlabel("part, in lot order")

@@ -1,7 +1,8 @@
 """Each part's result kept in the lot folder as it arrives: DIR/parts/NAME/result.json (the document
 `grade --json` prints), DIR/parts/NAME/review/ (its review page, when drawn) and
-DIR/parts/NAME/entry.json (name, source, serial, the key of what was graded, the error). entry.json is written last, atomically, so a part counts as done only once its
-result is complete; a rerun keeps a part whose key still matches (same file, same request)."""
+DIR/parts/NAME/entry.json (name, source, serial, the key of what was graded, the error).
+entry.json is written last, atomically, so a part counts as done only once its result is complete;
+a rerun keeps a part whose key still matches (same file, same request)."""
 
 from __future__ import annotations
 

@@ -40,8 +40,11 @@ def plot_run_chart(series: list[SeamSeries], path: str | os.PathLike) -> Path:
         limits = individuals_limits(s.values)
         if limits is not None:
             ax.axhline(limits.centre, color=CENTRE_COLOUR, linewidth=1.0, label=f"centre {limits.centre:.3g}")
-            label = f"control limits {limits.lower:.3g} .. {limits.upper:.3g}"
-            for value in (limits.upper, limits.lower):
+            # the values are magnitudes (>= 0): a lower limit at or below zero is no limit, and is not drawn
+            drawn = [v for v in (limits.upper, limits.lower) if v > 0]
+            label = (f"control limits {limits.lower:.3g} .. {limits.upper:.3g}" if len(drawn) == 2
+                     else f"upper control limit {limits.upper:.3g}")
+            for value in drawn:
                 ax.axhline(value, color=LIMIT_COLOUR, linestyle="--", linewidth=1.0, label=label)
                 label = None  # one legend entry for both limits
             for i in np.flatnonzero(limits.outside(s.values)):

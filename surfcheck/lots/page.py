@@ -15,7 +15,8 @@ from surfcheck.lots.yields import SeamYield
 
 LIMITS_NOTE = ("Control limits (dashed) are those of an individuals chart (ISO 7870-2: centre line the mean,"
                " limits at the mean +/- 2.66 times the mean moving range of consecutive parts). They show the"
-               " process's own spread: a part beyond them has changed, whether or not it is within tolerance.")
+               " process's own spread: a part beyond them has changed, whether or not it is within tolerance."
+               " The values are magnitudes, so a lower limit below zero is no limit.")
 
 
 @dataclass(frozen=True)

@@ -10,6 +10,8 @@ from pathlib import Path
 
 from surfcheck.errors import InputError
 from surfcheck.io import check_outputs
+from surfcheck.grading.continuity import ORDERS
+from surfcheck.grading.document import CAUTION
 from surfcheck.grading.request import GradeRequest
 from surfcheck.lots.engine import lot_client, stream_grades
 from surfcheck.lots.parts import LotPart, collect_parts
@@ -41,9 +43,6 @@ class LotResult:
 
     def summary(self) -> dict:
         """The JSON-ready summary `surfcheck lot --json` prints."""
-        from surfcheck.grading.document import CAUTION
-        from surfcheck.grading.continuity import ORDERS
-
         records = list(self.records)
         return {
             "out": str(self.out),

@@ -175,44 +175,28 @@ def grade(
     On a scan without groups, `--seam auto` segments it into faces and fillets first, and `--nominal`
     labels it from a grouped nominal part. A STEP part is graded on its B-rep faces (exact) unless
     `--method mesh` asks for its tessellation."""
-    from surfcheck.grading.document import parse_requirement, run_document
-    from surfcheck.grading.exact import EXACT, grade_brep
-    from surfcheck.grading.run import GradeOptions, grade_part
-    from surfcheck.grading.tolerances import load_profile
+    from surfcheck.grading.request import GradeRequest, grade_prepared, prepare_part
+    from surfcheck.grading.run import GradeOptions
 
     if report_dir is not None:
         from surfcheck.review.folder import FIXED_FILES, check_folder, write_report
 
         check_outputs([report_dir, *(report_dir / f for f in FIXED_FILES)], [part, nominal])
         check_folder(report_dir)
-    required = parse_requirement(require)
-    profile = load_profile(tolerance)
-    if method not in (None, "exact", "mesh"):
-        raise InputError(f"--method {method!r}: use exact or mesh")
-    loaded = read_part(part, units=units, deflection=deflection)
-    exact = (method or ("exact" if loaded.brep is not None else "mesh")) == "exact"
-    if exact and loaded.brep is None:
-        raise InputError(f"{part}: --method exact needs a STEP part (B-rep faces); a mesh is graded with --method mesh")
-    if exact and report_dir is not None:
+    request = GradeRequest(tuple(seam), tolerance, require, GradeOptions(stations, spacing, strip, reach, search),
+                           units, deflection, method, str(nominal) if nominal is not None else None)
+    request.profile()  # a bad profile is reported before the part is read
+    prepared = prepare_part(part, request)
+    if prepared.exact and report_dir is not None:
         raise InputError("--report draws the mesh sections; add --method mesh to grade the tessellation with a report")
-    reference = read_part(nominal, units=units, deflection=deflection).part if nominal is not None else None
-    chosen = select_seams(loaded.part, list(seam), reference)
-    options = GradeOptions(stations, spacing, strip, reach, search)
+
     def progress(seams):
         return _progress(seams, "grading seams", quiet=as_json)
 
-    if exact:
-        run = grade_brep(chosen.part, loaded.brep, chosen.seams, profile, options, progress=progress)
-    else:
-        run = grade_part(chosen.part, chosen.seams, profile, options, progress=progress)
-    if not run.grades:
-        raise InputError("; ".join(f"{s.curve.id}: {s.reason}" for s in run.not_graded))
-    parameters = {"seams": list(seam), "nominal": str(nominal) if nominal else None,
-                  "method": EXACT if exact else "mesh", "deflection": deflection, **chosen.notes}
-    document = run_document(run, required, parameters)
+    run, document = grade_prepared(prepared, request, progress)
     if report_dir is not None:
-        page = write_report(run, required, report_dir, parameters=parameters, summary=part_summary(loaded),
-                            quiet=as_json)
+        page = write_report(run, request.required, report_dir, parameters=document["parameters"],
+                            summary=part_summary(prepared.loaded), quiet=as_json)
     if as_json:
         print_json(document)
     else:
@@ -241,6 +225,80 @@ def report(
     """Grade seams and write a review page with pictures and plots (DIR/index.html, DIR/result.json)."""
     grade(part, seam, tolerance, require, stations, spacing, units, deflection=deflection, as_json=False, report_dir=out, nominal=nominal,
           strip=strip, reach=reach, search=search, method="mesh")
+
+
+@app.command()
+def lot(
+    parts: list[Path] = typer.Argument(..., help="Part files, folders of part files, or .txt files listing part paths."),
+    seam: list[str] = SEAM_OPT,
+    out: Path = typer.Option(..., "--out", help="Lot folder: parts/NAME/result.json, lot.parquet, lot.csv, index.html."),
+    nominal: Optional[Path] = NOMINAL_OPT,
+    tolerance: str = TOLERANCE_OPT,
+    require: Optional[str] = REQUIRE_OPT,
+    scheduler: Optional[str] = typer.Option(None, "--scheduler", help="A running Dask scheduler, tcp://HOST:PORT (default: a local cluster)."),
+    workers: Optional[int] = typer.Option(None, "--workers", help="Worker processes of the local cluster (default: one per core)."),
+    force: bool = typer.Option(False, "--force", help="Grade every part again, also those DIR holds already."),
+    pages: str = typer.Option("failing", "--pages", help="Review pages of their own for: failing parts, all, or none."),
+    stations: Optional[int] = STATIONS_OPT,
+    spacing: Optional[float] = SPACING_OPT,
+    units: str = UNITS_OPT,
+    deflection: Optional[float] = DEFLECTION_OPT,
+    as_json: bool = JSON_OPT,
+) -> None:
+    """Grade a production lot, each part as `grade` does, one task per part on Dask distributed; write
+    each part's result as it arrives, the lot table (Parquet, CSV) and the lot page."""
+    from surfcheck.grading.request import GradeRequest
+    from surfcheck.grading.run import GradeOptions
+    from surfcheck.lots.run import run_lot
+
+    request = GradeRequest(tuple(seam), tolerance, require, GradeOptions(stations, spacing), units, deflection,
+                           None, str(nominal) if nominal is not None else None)
+    result = run_lot(list(parts), request, out, scheduler=scheduler, workers=workers, force=force, pages=pages,
+                     progress=None if as_json else _lot_progress)
+    summary = result.summary()
+    if as_json:
+        print_json(summary)
+    else:
+        print_lot(summary)
+    raise typer.Exit(1 if summary["verdict"] == "fail" or summary["errors"] else 0)
+
+
+def _lot_progress(total: int):
+    """A progress bar over the parts of a lot on stderr (when it is a terminal); returns advance(what)."""
+    if not sys.stderr.isatty():
+        return None
+    from rich.progress import Progress
+
+    bar = Progress(console=Console(stderr=True), transient=True)
+    task = bar.add_task("grading parts", total=total)
+    bar.start()
+
+    def advance(what: str) -> None:
+        bar.update(task, advance=1, description=what)
+        if bar.finished:
+            bar.stop()
+
+    return advance
+
+
+def print_lot(summary: dict) -> None:
+    """The lot in a few lines: parts, yield per seam, failing parts, error rows, verdict."""
+    console.print(f"{summary['parts']} parts: {summary['graded']} graded ({summary['kept']} kept from an earlier run),"
+                  f" {len(summary['errors'])} with errors")
+    table = Table("seam", "parts graded", "meeting", "yield", title=f"lot in {summary['out']}")
+    for item in summary["seams"]:
+        share = "" if item["yield"] is None else f"{100 * item['yield']:.1f} %"
+        table.add_row(item["seam"], str(item["graded"]), "" if item["meeting"] is None else str(item["meeting"]), share)
+    console.print(table)
+    if summary["failing"]:
+        console.print("failing parts: " + ", ".join(summary["failing"]))
+    for item in summary["errors"]:
+        console.print(f"[yellow]error row[/yellow] {item['part']}: {item['error']}")
+    if summary["require"]:
+        colour = "green" if summary["verdict"] == "pass" else "red"
+        console.print(f"requirement {summary['require']}: [{colour}]{summary['verdict']}[/{colour}]")
+    console.print("written: " + ", ".join(summary["files"].values()))
+    console.print(f"[dim]{summary['caution']}[/dim]")
 
 
 @app.command()

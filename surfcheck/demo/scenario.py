@@ -99,9 +99,10 @@ def housing_profile() -> Profile:
     )
 
 
-def housing_part(source: str = "housing", edge: float = EDGE, skew: float = 0.0) -> Part:
-    """The nominal shell as a Part with its face groups."""
-    mesh = extrude(housing_profile(), DEPTH, edge, skew=skew)
+def housing_part(source: str = "housing", edge: float = EDGE, skew: float = 0.0, profile: Profile | None = None) -> Part:
+    """The nominal shell as a Part with its face groups (or a shell of another ``profile`` with the
+    same piece names)."""
+    mesh = extrude(profile or housing_profile(), DEPTH, edge, skew=skew)
     names = list(dict.fromkeys(GROUP_OF_PIECE[n] for n in mesh.group_names))
     regroup = np.array([names.index(GROUP_OF_PIECE[n]) for n in mesh.group_names])
     return Part(mesh.vertices, mesh.faces, regroup[mesh.face_group], tuple(names), "mm", source)
@@ -203,6 +204,9 @@ def run_demo(out: str | Path, say=print) -> dict:
             results["grades"][f"{name} (segmented)"] = _grade_and_review(
                 replace(loaded, part=segmentation.part), seams_of_segmentation(segmentation),
                 out / f"{stem}-segmented-review", say, "scan", built)
+    from surfcheck.demo.lot import run_lot_demo
+
+    results["lot"] = run_lot_demo(out / "lot", samples["housing.obj"], say)
     _write_json(out / "demo.json", results)
     say(CAUTION)
     return results

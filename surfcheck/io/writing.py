@@ -48,14 +48,19 @@ def write_atomic(path: Path, payload: bytes) -> None:
     try:
         with os.fdopen(handle, "wb") as stream:
             stream.write(payload)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(temporary, 0o666 & ~umask)  # mkstemp makes 0600; a written part is an ordinary file
+        os.chmod(temporary, 0o666 & ~current_umask())  # mkstemp makes 0600; a written part is an ordinary file
         os.replace(temporary, path)
     except BaseException:
         if os.path.exists(temporary):
             os.unlink(temporary)
         raise
+
+
+def current_umask() -> int:
+    """The process's file mode creation mask (os.umask can only be read by setting it)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def _obj_bytes(part: Part) -> bytes:

@@ -19,7 +19,21 @@ class InputError(SurfcheckError):
 
 
 class OutputError(SurfcheckError):
-    """An output that cannot be written: a full or read-only disk, a folder without permission."""
+    """An output that cannot be written: a full or read-only disk, a folder without permission.
+
+    Parameters
+    ----------
+    path : path-like
+        The output as the user named it.
+    error : OSError
+        The system's failure; its reason goes into the message, with what to do.
+    """
+
+    def __init__(self, path: str | os.PathLike, error: OSError) -> None:
+        self.path, self.error = path, error
+        reason = error.strerror or type(error).__name__
+        remedy = "free some space or choose another folder" if error.errno in NO_SPACE else "choose another folder"
+        super().__init__(f"cannot write {path}: {reason}; {remedy}")
 
 
 @contextmanager
@@ -40,6 +54,4 @@ def writing(path: str | os.PathLike) -> Iterator[None]:
     try:
         yield
     except OSError as exc:
-        reason = exc.strerror or type(exc).__name__
-        remedy = "free some space or choose another folder" if exc.errno in NO_SPACE else "choose another folder"
-        raise OutputError(f"cannot write {path}: {reason}; {remedy}") from None
+        raise OutputError(path, exc) from None

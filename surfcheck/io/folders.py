@@ -21,7 +21,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
 
-from surfcheck.errors import InputError, writing
+from surfcheck.errors import InputError, OutputError, writing
 from surfcheck.io.writing import current_umask
 
 STAGING, ASIDE, LOCK = ".staging-", ".aside-", ".lock"  # suffixes of the hidden siblings of a folder
@@ -97,7 +97,10 @@ def replaced_folder(folder: str | os.PathLike, owned: tuple[str, ...]) -> Iterat
         try:
             with writing(given):
                 os.chmod(staging, 0o777 & ~current_umask())  # mkdtemp makes 0700; a review folder is an ordinary one
-            yield staging
+            try:
+                yield staging
+            except OutputError as failure:  # a file of the staging folder: name the folder the user gave
+                raise OutputError(given, failure.error) from None
             with writing(given):
                 _swap_into_place(staging, target)
         finally:

@@ -16,7 +16,6 @@ import random
 import shutil
 import signal
 import subprocess
-import sys
 import time
 from contextlib import contextmanager
 from pathlib import Path
@@ -29,28 +28,11 @@ from surfcheck.io import save_part
 from surfcheck.io.folders import ASIDE, STAGING, replaced_folder
 from surfcheck.review.folder import OWN_FILES, PAGE_FILE, RESULT_FILE
 from tests.fixtures.blend_parts import blend_part
+from tests.fixtures.command_line import command, run_cli, run_main
 
 REPORT = ("--stations", "3")
 KILLS = 4  # SIGKILLs of one report run, at fixed pseudo-random moments
 WRITE_PHASE = 7.5  # seconds from the staging folder's appearance past the swap (measured: 6.9 s on 2 cores)
-
-
-def command(*args: str) -> list[str]:
-    return [sys.executable, "-m", "surfcheck", *args]
-
-
-def run_cli(*args: str, **options) -> subprocess.CompletedProcess:
-    return subprocess.run(command(*args), capture_output=True, text=True, timeout=300, **options)
-
-
-def run_main(monkeypatch, capsys, *args: str) -> tuple[int, str]:
-    """The command line's entry point in this process: exit code and stderr."""
-    from surfcheck.cli import main
-
-    monkeypatch.setattr(sys, "argv", ["surfcheck", *args])
-    with pytest.raises(SystemExit) as stop:
-        main()
-    return stop.value.code, capsys.readouterr().err
 
 
 def snapshot(folder: Path) -> dict[str, str]:

@@ -15,15 +15,7 @@ import trimesh
 import surfcheck.io.memory as memory
 from surfcheck.io import save_part
 from tests.fixtures.blend_parts import blend_part
-
-
-def run_main(monkeypatch, capsys, *args: str) -> tuple[int, str]:
-    from surfcheck.cli import main
-
-    monkeypatch.setattr(sys, "argv", ["surfcheck", *args])
-    with pytest.raises(SystemExit) as stop:
-        main()
-    return stop.value.code, capsys.readouterr().err
+from tests.fixtures.command_line import run_main
 
 
 @pytest.fixture(scope="module")

@@ -10,10 +10,8 @@ from __future__ import annotations
 
 import errno
 import hashlib
-import json
 import os
 import random
-import shutil
 import signal
 import subprocess
 import time
@@ -21,46 +19,18 @@ from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
-from PIL import Image
 
 from surfcheck.errors import InputError
 from surfcheck.io import save_part
 from surfcheck.io.folders import ASIDE, STAGING, replaced_folder
-from surfcheck.review.folder import OWN_FILES, PAGE_FILE, RESULT_FILE
+from surfcheck.review.folder import OWN_FILES
 from tests.fixtures.blend_parts import blend_part
 from tests.fixtures.command_line import command, run_cli, run_main
+from tests.fixtures.review_folders import assert_complete, leftovers, seams_of, snapshot
 
 REPORT = ("--stations", "3")
 KILLS = 4  # SIGKILLs of one report run, at fixed pseudo-random moments
 WRITE_PHASE = 7.5  # seconds from the staging folder's appearance past the swap (measured: 6.9 s on 2 cores)
-
-
-def snapshot(folder: Path) -> dict[str, str]:
-    """Every file of a folder by name, with the SHA-256 of its bytes."""
-    return {p.name: hashlib.sha256(p.read_bytes()).hexdigest() for p in sorted(folder.iterdir())}
-
-
-def leftovers(folder: Path) -> list[str]:
-    """The staging and aside siblings of a folder (what a killed run leaves)."""
-    return [p.name for p in folder.parent.iterdir() if p.name.startswith((f".{folder.name}{STAGING}",
-                                                                           f".{folder.name}{ASIDE}"))]
-
-
-def seams_of(folder: Path) -> list[str]:
-    return [seam["id"] for seam in json.loads((folder / RESULT_FILE).read_text())["seams"]]
-
-
-def assert_complete(folder: Path, seams: list[str]) -> None:
-    """A review folder of exactly these seams: result.json names them, every picture decodes and
-    belongs to a part heatmap or to one of them, and the page is whole."""
-    assert seams_of(folder) == seams
-    pictures = sorted(p.name for p in folder.glob("*.png"))
-    for name in pictures:
-        with Image.open(folder / name) as image:
-            image.verify()  # a truncated PNG fails here
-    assert {n.rsplit("-", 1)[0] for n in pictures if not n.startswith("part-")} == set(seams)
-    assert sorted(p.name for p in folder.iterdir()) == sorted([PAGE_FILE, RESULT_FILE, *pictures])
-    assert (folder / PAGE_FILE).read_text().rstrip().endswith("</html>")
 
 
 @pytest.fixture(scope="module")

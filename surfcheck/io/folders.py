@@ -86,17 +86,9 @@ def replaced_folder(folder: str | os.PathLike, owned: tuple[str, ...]) -> Iterat
     """
     given = Path(folder)
     target = Path(os.path.realpath(given))
-    with writing(given):
-        target.parent.mkdir(parents=True, exist_ok=True)
     with _locked(target, given):
-        with writing(given):
-            _remove_leftovers(target)
-        check_replaceable(target, owned)
-        with writing(given):
-            staging = Path(tempfile.mkdtemp(prefix=f".{target.name}{STAGING}", dir=target.parent))
+        staging = _fresh_staging(target, given, owned)
         try:
-            with writing(given):
-                os.chmod(staging, 0o777 & ~current_umask())  # mkdtemp makes 0700; a review folder is an ordinary one
             try:
                 yield staging
             except OutputError as failure:  # a file of the staging folder: name the folder the user gave
@@ -107,11 +99,23 @@ def replaced_folder(folder: str | os.PathLike, owned: tuple[str, ...]) -> Iterat
             shutil.rmtree(staging, ignore_errors=True)  # the new folder on failure, the old one after a swap
 
 
+def _fresh_staging(target: Path, given: Path, owned: tuple[str, ...]) -> Path:
+    """Under the lock: a killed run's leftovers removed, the folder checked (check_replaceable), and
+    an empty staging sibling made with an ordinary folder's mode (mkdtemp makes 0700)."""
+    with writing(given):
+        _remove_leftovers(target)
+        check_replaceable(target, owned)
+        staging = Path(tempfile.mkdtemp(prefix=f".{target.name}{STAGING}", dir=target.parent))
+        os.chmod(staging, 0o777 & ~current_umask())
+    return staging
+
+
 @contextmanager
 def _locked(target: Path, given: Path) -> Iterator[None]:
     """Hold an exclusive flock(2) on the folder's lock file; released when the process ends, so a
     killed run never leaves the folder locked. The file stays (removing it would race a waiter)."""
     with writing(given):
+        target.parent.mkdir(parents=True, exist_ok=True)
         handle = os.open(target.parent / f".{target.name}{LOCK}", os.O_RDWR | os.O_CREAT, 0o666)
     try:
         fcntl.flock(handle, fcntl.LOCK_EX)

@@ -5,10 +5,8 @@ traceback, within bounded time and memory."""
 
 from __future__ import annotations
 
-import os
 import subprocess
 import sys
-import threading
 import warnings
 from pathlib import Path
 
@@ -17,7 +15,7 @@ import pytest
 
 from surfcheck import InputError
 from surfcheck.io import load_part
-from tests.fixtures.command_line import command
+from tests.fixtures.command_line import run_measured
 from tests.fixtures.hostile_files import ENCODINGS, SUFFIX, hostile_files, seed_file
 
 LIBRARY_FILES = 600  # in-process, a few seconds
@@ -65,22 +63,6 @@ def test_mutated_files_through_inspect(tmp_path):
 
 LOADING_FILES, REFUSED_FILES = 3, 2  # through grade and map: mutated files the reader accepts, and refuses
 PEAK_LIMIT = 2**30  # bytes of resident memory a command may take on a file under 10 MB (the issue's bound)
-
-
-def run_measured(args: list[str], folder: Path, timeout: float = 120) -> tuple[int, str, int]:
-    """`surfcheck ARGS` as a subprocess: exit code, stderr and its peak resident memory in bytes
-    (getrusage ru_maxrss through wait4(2), kilobytes on Linux); killed past ``timeout`` seconds."""
-    err_path = folder / "stderr.txt"
-    with open(err_path, "w") as err:
-        process = subprocess.Popen(command(*args), stdout=subprocess.DEVNULL, stderr=err)
-    timer = threading.Timer(timeout, process.kill)
-    timer.start()
-    try:
-        _, status, usage = os.wait4(process.pid, 0)
-    finally:
-        timer.cancel()
-    process.returncode = os.waitstatus_to_exitcode(status)  # reaped here: Popen must not wait again
-    return process.returncode, err_path.read_text(), usage.ru_maxrss * 1024
 
 
 def _loads(sample, folder: Path) -> bool:

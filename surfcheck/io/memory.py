@@ -3,14 +3,15 @@ headers) or holds (OBJ and ASCII STL records), checked against the memory the ma
 the mesh is parsed, so that a part too large is refused with one line instead of swapping the machine
 or being killed.
 
-The figures come from the peak resident memory (``/usr/bin/time -f %M``) of each command on the demo
-housing at 24k, 386k and 1.5M triangles, above what the command held on its smallest part: it grows
-linearly, at about 510 bytes per triangle for inspect and loops (PLY; OBJ 540, STL 610), 490 grade,
-515 report, 470 map, 1,100 segment and 3,400 transfer (two parts of that size). Each entry is its
-slope with the STL reader's extra 100 bytes and a quarter more, rounded up; blend was not measured
-and is given grade's figure twice (it grades a merged copy of the part). Rendering pictures costs a
-fixed amount whatever the part: 350 MiB for map's PNG (against its PLY), 500 MiB for report (against
-grade). The file's own bytes are added: they are held while it is parsed.
+The figures come from the peak resident memory of each command (getrusage ru_maxrss) less what it
+held when the guard ran (benchmarks/memory_guard.py), on the demo housing at 24k, 97k and 386k
+triangles (and 1.5M for inspect, map and grade, measured with ``/usr/bin/time -f %M``). The need grows
+linearly: about 330 bytes per triangle for inspect (PLY; STL about 100 more), 460 grade, 690 report,
+420 map, 1,130 segment and 3,400 transfer (two parts of that size). Each entry is its slope with a
+quarter more or more, rounded up; blend was not measured and is given grade's figure twice (it grades
+a merged copy of the part). Beside it a fixed amount whatever the part: 63-74 MiB for the modules
+loaded after the part is read, 400 MiB for map's PNG and 520 MiB for report (off-screen rendering),
+at 24k triangles. The file's own bytes are added: they are held while it is parsed.
 """
 
 from __future__ import annotations
@@ -25,9 +26,10 @@ from surfcheck.io.stl import HEADER_BYTES, RECORD
 
 GIB = 2.0 ** 30
 # Bytes per triangle of each command, and the bytes it needs whatever the part's size (the renderer).
-PER_TRIANGLE = {"inspect": 800, "loops": 800, "grade": 750, "report": 800, "map": 750, "blend": 1500,
+PER_TRIANGLE = {"inspect": 800, "loops": 800, "grade": 750, "report": 900, "map": 750, "blend": 1500,
                 "segment": 1500, "transfer": 4400}
-FIXED = {"report": 600 * 2**20, "map": 450 * 2**20}  # VTK and matplotlib off-screen rendering
+FIXED = {"report": 600 * 2**20, "map": 450 * 2**20}  # with VTK and matplotlib off-screen rendering
+LOADED_LATER = 100 * 2**20  # every other command: the modules loaded after the part is read
 MEMINFO = Path("/proc/meminfo")
 CGROUP, PROC_CGROUP = Path("/sys/fs/cgroup"), Path("/proc/self/cgroup")
 
@@ -69,7 +71,7 @@ def _lines(data: bytes, tag: bytes) -> int:
 
 def needed_memory(command: str, triangles: int, file_bytes: int) -> float:
     """Bytes a command is expected to need for a part of ``triangles`` read from ``file_bytes``."""
-    return file_bytes + PER_TRIANGLE.get(command, max(PER_TRIANGLE.values())) * triangles + FIXED.get(command, 0)
+    return file_bytes + PER_TRIANGLE.get(command, max(PER_TRIANGLE.values())) * triangles + FIXED.get(command, LOADED_LATER)
 
 
 def available_memory() -> float | None:

@@ -199,3 +199,18 @@ def test_a_run_killed_between_the_two_renames_is_undone_by_the_next(tmp_path):
         with replaced_folder(folder, ()):  # owns no file name: the restored folder is refused
             pass
     assert (folder / "index.html").read_text() == "old" and leftovers(folder) == []
+
+
+def test_a_link_given_as_output_stays_a_link(part, tmp_path, monkeypatch, capsys):
+    # the file (or folder) the link leads to is replaced; the link itself is kept
+    target, link = tmp_path / "field.ply", tmp_path / "link.ply"
+    target.write_bytes(b"old")
+    link.symlink_to(target)
+    code, err = run_main(monkeypatch, capsys, "map", str(part), "--out", str(link))
+    assert code in (None, 0), err
+    assert link.is_symlink() and target.read_bytes().startswith(b"ply\n")
+    folder, folder_link = tmp_path / "review", tmp_path / "review-link"
+    _write(folder, {"index.html": "old"})
+    folder_link.symlink_to(folder)
+    _write(folder_link, {"index.html": "new"})
+    assert folder_link.is_symlink() and (folder / "index.html").read_text() == "new" and leftovers(folder) == []

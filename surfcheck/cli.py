@@ -17,7 +17,6 @@ from surfcheck.errors import InputError, SurfcheckError
 from surfcheck.grading.document import CAUTION
 from surfcheck.io import check_outputs, read_part
 from surfcheck.seams import SeamIndex
-from surfcheck.grading.selection import select_seams
 from surfcheck.summary import part_summary
 
 app = typer.Typer(
@@ -86,7 +85,7 @@ def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_
 def loops(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT,
           deflection: Optional[float] = DEFLECTION_OPT) -> None:
     """Every boundary loop, boundary chain and group seam, with the ids other commands take."""
-    index = SeamIndex(read_part(part, units=units, deflection=deflection).part)
+    index = SeamIndex(read_part(part, units=units, deflection=deflection, command="loops").part)
     document = {
         "loops": [c.to_dict() for c in index.loops],
         "chains": [c.to_dict() for c in index.chains],
@@ -186,7 +185,7 @@ def grade(
     request = GradeRequest(tuple(seam), tolerance, require, GradeOptions(stations, spacing, strip, reach, search),
                            units, deflection, method, str(nominal) if nominal is not None else None)
     request.profile()  # a bad profile is reported before the part is read
-    prepared = prepare_part(part, request)
+    prepared = prepare_part(part, request, report=report_dir is not None)
     if prepared.exact and report_dir is not None:
         raise InputError("--report draws the mesh sections; add --method mesh to grade the tessellation with a report")
 
@@ -327,8 +326,8 @@ def blend(
         raise InputError("blend takes PART, or PART_A PART_B")
     check_outputs([out_patch, merged_file], parts)
     profile = load_profile(tolerance)
-    part_a = read_part(parts[0], units=units, deflection=deflection).part
-    part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units, deflection=deflection).part
+    part_a = read_part(parts[0], units=units, deflection=deflection, command="blend").part
+    part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units, deflection=deflection, command="blend").part
     chain_a = _one_chain(SeamIndex(part_a), chain_from, parts[0])
     chain_b = _one_chain(SeamIndex(part_b), chain_to, parts[-1])
     result = build_blend(part_a, chain_a, part_b, chain_b, order, step, span, resolution)
@@ -372,7 +371,7 @@ def segment(
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
     check_outputs([out_file], [part])
-    loaded = read_part(part, units=units, deflection=deflection)
+    loaded = read_part(part, units=units, deflection=deflection, command="segment")
     segmentation = segment_part(loaded.part, nominal_radius=radius)
     save_part(segmentation.part, out_file)
     document = segmentation.to_json()
@@ -427,10 +426,10 @@ def transfer(
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
     check_outputs([out_file], [nominal, scan])
-    reference = read_part(nominal, units=units, deflection=deflection).part
+    reference = read_part(nominal, units=units, deflection=deflection, command="transfer").part
     if len(reference.group_names) < 2:
         raise InputError(f"{nominal}: the nominal part has no face groups to carry over")
-    measured = read_part(scan, units=units, deflection=deflection).part
+    measured = read_part(scan, units=units, deflection=deflection, command="transfer").part
     alignment = align(measured, reference)
     labelled = transfer_groups(reference, measured, alignment)
     save_part(labelled, out_file)
@@ -476,7 +475,7 @@ def map_field(
     if suffix not in (".ply", ".csv", ".png"):
         raise InputError(f"{out_file}: give --out a .ply, .csv or .png name")
     check_outputs([out_file], [part])
-    loaded = read_part(part, units=units, deflection=deflection)
+    loaded = read_part(part, units=units, deflection=deflection, command="map")
     field = vertex_field(loaded.part, quantity)
     if suffix == ".png":
         from surfcheck.review.render import render_field

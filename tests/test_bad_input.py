@@ -18,6 +18,7 @@ from hypothesis import strategies as st
 
 from surfcheck import InputError
 from surfcheck.io import load_part, read_part
+from tests.fixtures.command_line import run_main
 
 
 def run_cli(*args: str) -> subprocess.CompletedProcess:
@@ -232,16 +233,6 @@ def test_a_fifo_is_refused_without_opening_it(tmp_path):
 def test_a_device_is_refused(tmp_path):
     with pytest.raises(InputError, match="not a regular file"):
         load_part("/dev/zero")  # reading it would never end
-
-
-def run_main(monkeypatch, capsys, *args: str) -> tuple[int, str]:
-    """The command line's entry point in this process (no interpreter start): exit code and stderr."""
-    from surfcheck.cli import main
-
-    monkeypatch.setattr(sys, "argv", ["surfcheck", *args])
-    with pytest.raises(SystemExit) as stop:
-        main()
-    return stop.value.code, capsys.readouterr().err
 
 
 # Each command with an output path, {i} the input part, {o} the output path that turns out to be it.

@@ -51,11 +51,16 @@ class GradeRequest:
         """The tolerance profile named (or the TOML file given) by ``tolerance``."""
         return load_profile(self.tolerance)
 
-    def read_nominal(self) -> Part | None:
+    def work(self, report: bool = False) -> str:
+        """The command whose memory need the reader's guard checks (io.memory): segmenting (``--seam
+        auto``) needs the most, then a review page, then grading."""
+        return "segment" if "auto" in self.seams else "report" if report else "grade"
+
+    def read_nominal(self, report: bool = False) -> Part | None:
         """The nominal part, read once for every part graded through it (None without one)."""
         if self.nominal is None:
             return None
-        return read_part(self.nominal, units=self.units, deflection=self.deflection).part
+        return read_part(self.nominal, units=self.units, deflection=self.deflection, command=self.work(report)).part
 
 
 @dataclass(frozen=True)
@@ -68,7 +73,8 @@ class PreparedPart:
     exact: bool
 
 
-def prepare_part(path: str | os.PathLike, request: GradeRequest, nominal: Part | None = None) -> PreparedPart:
+def prepare_part(path: str | os.PathLike, request: GradeRequest, nominal: Part | None = None,
+                 report: bool = False) -> PreparedPart:
     """Read a part and select the requested seams (after labelling it from ``nominal``).
 
     Parameters
@@ -86,12 +92,12 @@ def prepare_part(path: str | os.PathLike, request: GradeRequest, nominal: Part |
     PreparedPart
         The loaded part, the chosen seams and the method.
     """
-    loaded = read_part(Path(path), units=request.units, deflection=request.deflection)
+    loaded = read_part(Path(path), units=request.units, deflection=request.deflection, command=request.work(report))
     exact = (request.method or ("exact" if loaded.brep is not None else "mesh")) == "exact"
     if exact and loaded.brep is None:
         raise InputError(f"{path}: --method exact needs a STEP part (B-rep faces); a mesh is graded with --method mesh")
     if nominal is None:
-        nominal = request.read_nominal()
+        nominal = request.read_nominal(report)
     return PreparedPart(loaded, select_seams(loaded.part, list(request.seams), nominal), exact)
 
 

@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 
 from surfcheck.errors import InputError
+from surfcheck.io.memory import check_memory
 from surfcheck.io.obj import parse_obj
 from surfcheck.io.ply import parse_ply
 from surfcheck.io.raw import RawMesh
@@ -57,7 +58,7 @@ def load_part(path: str | os.PathLike, units: str = "mm", weld: bool = True,
 
 
 def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True,
-              deflection: float | None = None) -> LoadResult:
+              deflection: float | None = None, command: str = "inspect") -> LoadResult:
     """Read a mesh file and report welding and the non-fatal defects found.
 
     Parameters
@@ -70,6 +71,9 @@ def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True,
         Merge vertices closer than the weld tolerance.
     deflection : float, optional
         STEP only: chordal deflection of the tessellation (cad.tessellate; default from the part's size).
+    command : str
+        What will be done with the part: a mesh too large for the memory it needs (io.memory) is
+        refused before it is parsed.
 
     Returns
     -------
@@ -93,6 +97,7 @@ def read_part(path: str | os.PathLike, units: str = "mm", weld: bool = True,
     reader = {".stl": parse_stl, ".obj": parse_obj, ".ply": parse_ply}[suffix]
     try:
         with np.errstate(over="raise", invalid="raise", divide="raise"):  # an exception, never a warning
+            check_memory(data, suffix, name, command)  # from the counts, before anything is allocated for them
             raw = reader(data, name)
     except InputError:
         raise

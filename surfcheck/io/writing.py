@@ -9,7 +9,7 @@ from pathlib import Path
 
 import numpy as np
 
-from surfcheck.errors import InputError
+from surfcheck.errors import InputError, writing
 from surfcheck.part import Part
 
 
@@ -42,20 +42,39 @@ def save_part(part: Part, path: str | os.PathLike) -> Path:
 
 
 def write_atomic(path: Path, payload: bytes) -> None:
-    """Write bytes to a temporary file beside ``path`` and rename it into place."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
-    try:
-        with os.fdopen(handle, "wb") as stream:
-            stream.write(payload)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(temporary, 0o666 & ~umask)  # mkstemp makes 0600; a written part is an ordinary file
-        os.replace(temporary, path)
-    except BaseException:
-        if os.path.exists(temporary):
-            os.unlink(temporary)
-        raise
+    """Write bytes to a temporary file beside ``path`` and rename it into place: the file is complete
+    or as it was, whenever the process stops. A link is followed (the file it leads to is replaced).
+    OutputError (errors.writing) naming ``path`` when the disk is full, read-only or not permitted."""
+    path = Path(path)
+    target = Path(os.path.realpath(path))
+    with writing(path):
+        target.parent.mkdir(parents=True, exist_ok=True)
+        handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", dir=target.parent)
+        try:
+            try:
+                _write_all(handle, payload)
+            finally:
+                os.close(handle)
+            os.chmod(temporary, 0o666 & ~current_umask())  # mkstemp makes 0600; a written part is an ordinary file
+            os.replace(temporary, target)
+        except BaseException:
+            if os.path.exists(temporary):
+                os.unlink(temporary)
+            raise
+
+
+def _write_all(handle: int, payload: bytes) -> None:
+    """os.write until every byte is written (a write may take fewer bytes than it is given)."""
+    view = memoryview(payload)
+    while view:
+        view = view[os.write(handle, view):]
+
+
+def current_umask() -> int:
+    """The process's file mode creation mask (os.umask can only be read by setting it)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def _obj_bytes(part: Part) -> bytes:

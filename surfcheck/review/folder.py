@@ -20,9 +20,9 @@ import numpy as np
 
 from surfcheck.version import __version__
 from surfcheck.grading.continuity import ORDERS, SeamGrade
-from surfcheck.errors import InputError
 from surfcheck.geometry.fields import VertexField, vertex_fields
 from surfcheck.io import LoadResult, write_atomic
+from surfcheck.io.folders import check_replaceable, replaced_folder
 from surfcheck.review.page import Picture, review_page
 from surfcheck.part import Part
 from surfcheck.grading.document import run_document
@@ -37,6 +37,7 @@ SEAM_QUANTITY = "jump"  # the field under each seam's picture
 CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam
 PAGE_FILE, RESULT_FILE = "index.html", "result.json"
 FIXED_FILES = (PAGE_FILE, RESULT_FILE)  # the names a review folder always holds, beside its pictures
+OWN_FILES = (*FIXED_FILES, "*.png")  # all it holds: a folder with anything else is not replaced
 LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib")
 
 
@@ -66,11 +67,9 @@ def seam_overlay(curve: Curve, grade: SeamGrade, upto: int):
 
 
 def check_folder(path: str | Path) -> Path:
-    """The report folder as a Path; InputError when it names an existing file."""
-    path = Path(path)
-    if path.exists() and not path.is_dir():
-        raise InputError(f"{path}: exists and is not a folder; give another report folder")
-    return path
+    """The report folder as a Path; InputError when it names an existing file or a folder holding
+    anything but a review's own files (io.folders.check_replaceable), before any work is done."""
+    return check_replaceable(path, OWN_FILES)
 
 
 def _near(V: np.ndarray, points: np.ndarray, radius: float) -> np.ndarray:
@@ -152,7 +151,9 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
     required : int or None
         The required order (0..3), or None.
     out_dir : str or Path
-        The folder; created when missing, InputError when it names a file.
+        The folder; created when missing. It is written whole (io.folders.replaced_folder): after
+        any failure or kill it is this run's complete folder or the one before. InputError when it
+        names a file or a folder holding other files than a review's (check_folder).
     parameters : dict, optional
         The request beside the run's options (seams, nominal, notes), as run_document takes them.
     summary : dict, optional
@@ -169,8 +170,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
     from surfcheck.review.plots import plot_along_seam, plot_profiles
     from surfcheck.review.render import colour_limits, limits_text, overview_views, render_field, seam_views
 
-    out = check_folder(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
+    folder = check_folder(out_dir)
     part, profile = run.part, run.profile
     graded = [s for s in run.seams if s.grade is not None]
     grades = [s.grade for s in graded]
@@ -180,7 +180,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
     name = Path(part.source).name or "part"
     part_pictures: list[Picture] = []
     seam_pictures: dict[str, list[Picture]] = {}
-    with _Steps(2 + len(PART_QUANTITIES) + 3 * len(grades), quiet) as steps:
+    with replaced_folder(folder, OWN_FILES) as out, _Steps(2 + len(PART_QUANTITIES) + 3 * len(grades), quiet) as steps:
         fields = {q: without_boundary_band(part, f)
                   for q, f in vertex_fields(part, dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY])).items()}
         curvature = principal_curvatures(V, F)
@@ -235,7 +235,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
         page = review_page(document, summary, part_pictures, seam_pictures, context, notes)
         write_atomic(out / PAGE_FILE, page.encode("utf-8"))
         steps.advance("page")
-    return out / PAGE_FILE
+    return folder / PAGE_FILE
 
 
 def _notes(document: dict) -> list[str]:

@@ -290,7 +290,10 @@ def print_lot(summary: dict) -> None:
         table.add_row(item["seam"], str(item["graded"]), "" if item["meeting"] is None else str(item["meeting"]), share)
     console.print(table)
     if summary["failing"]:
-        console.print("failing parts: " + ", ".join(summary["failing"]))
+        console.print("parts not shown to meet the requirement: " + ", ".join(summary["failing"]))
+    if summary["defective"]:
+        console.print("of them with a defect shown (an order failing beyond its uncertainty): "
+                      + ", ".join(summary["defective"]))
     for item in summary["errors"]:
         console.print(f"[yellow]error row[/yellow] {item['part']}: {item['error']}")
     if summary["require"]:

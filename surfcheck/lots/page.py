@@ -90,8 +90,11 @@ def lot_page(summary: dict, seams: list[SeamReview], worst: list[WorstPart], con
     """
     verdict = summary["verdict"]
     requirement = summary["require"] or "none"
-    counts = (f"{summary['parts']} parts, {summary['graded']} graded, {len(summary['failing'])} failing the"
-              f" requirement, {len(summary['errors'])} error rows")
+    defective = ", ".join(escape(name) for name in summary["defective"]) or "none"
+    counts = (f"{summary['parts']} parts, {summary['graded']} graded, {len(summary['failing'])} not shown to meet the"
+              f" requirement, of them {len(summary['defective'])} with a defect shown (an order failing beyond its"
+              f" uncertainty: {defective}); the others read not resolved, where the data cannot decide;"
+              f" {len(summary['errors'])} error rows")
     errors = _table(["part", "file", "error"], [[escape(e["part"]), escape(e["source"]), escape(e["error"] or "")]
                                                for e in summary["errors"]]) if summary["errors"] else "<p>None.</p>"
     request = _table(None, [[escape(k), escape(str(v))] for k, v in context.items()])

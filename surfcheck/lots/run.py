@@ -19,7 +19,7 @@ from surfcheck.lots.review import PAGE_FILE, write_lot_page
 from surfcheck.lots.task import PAGES
 from surfcheck.lots.store import PARTS_FOLDER, PartRecord, load_record, part_key, save_record
 from surfcheck.lots.table import CSV_FILE, TABLE_FILE, write_tables
-from surfcheck.lots.yields import ERROR, lot_verdict, part_verdict, seam_yields
+from surfcheck.lots.yields import ERROR, lot_verdict, part_verdict, proven_defective, seam_yields
 
 
 @dataclass(frozen=True)
@@ -53,6 +53,7 @@ class LotResult:
             "kept": len(self.kept),
             "errors": [{"part": r.name, "source": r.source, "error": r.error} for r in self.errors],
             "failing": [r.name for r in records if part_verdict(r) == "fail"],
+            "defective": [r.name for r in records if proven_defective(r)],
             "seams": [y.to_dict() for y in seam_yields(records, self.required)],
             "files": {name: str(path) for name, path in self.files.items()},
             "caution": CAUTION,

@@ -16,6 +16,14 @@ def part_verdict(record: PartRecord) -> str:
     return ERROR if record.document is None else record.document["verdict"]
 
 
+def proven_defective(record: PartRecord) -> bool:
+    """Whether a seam of the part fails an order beyond its uncertainty (a defect shown, as opposed to
+    a requirement not shown to hold: noise or too coarse data leave that "not resolved")."""
+    if record.document is None:
+        return False
+    return any(order["status"] == "fail" for seam in record.document["seams"] for order in seam["orders"].values())
+
+
 def seam_name(seam: dict) -> str:
     """A seam's name across the lot: its groups, "A | B"."""
     return " | ".join(seam["groups"])

@@ -1,0 +1,602 @@
+"""Calibration of the grader's stated uncertainties against truth by construction.
+
+A randomised family of seams is built with the product's shape builder (surfcheck.demo.shapes): planar
+profiles of lines, circular arcs, clothoids (Euler spirals) and smooth-step curvature ramps (Hermite
+smoothstep of order 1 or 2, so the curvature is C^1 or C^2), extruded or revolved, so every jump
+across every seam is known exactly from the profile's curvature kappa(s) and its rate d kappa / ds at
+the two pieces' ends. Each seam is graded with ``grade_seam`` and every station value is compared with
+the true jump:
+
+- coverage: the share of stations with |value - truth| <= U, U = k u as reported, k = 2 (JCGM 100:2008,
+  GUM, section 6: about 95 % for a normal distribution). A station whose uncertainty is infinite (the
+  order reads "not resolved" without a number) is not covered; its share is reported beside;
+- false fail: a seam that fails an order its true jump meets (true jump <= the tolerance computed from
+  the true curvatures and rates); false ok: a seam holding an order its true jump breaks;
+- exact: ``achieved`` equals the designed class (the highest k whose true jumps G0..Gk all meet the
+  tolerance) on clean seams; per order, the seam's status is "ok" where the truth meets the
+  tolerance and "fail" where it does not;
+- resolution: the smallest jump a station tells from zero at k = 2 is U (a jump of U reads value - U > 0
+  about half the time), as the median U per order against edge / radius and noise; and the share of
+  stations with a non-zero true jump that do tell it from zero (value - U > 0).
+
+Draws per seam, all from one numpy Generator seeded per case (the case seed replays it: --case SEED):
+radius 2 to 8 mm; convex or concave; extruded, or revolved with the seam at 3 to 10 radii from the axis;
+edge r/30 to r/5 (log-uniform); mesh "regular" (the builder's grid, rows staggered or not), "jittered"
+(every vertex moved along the surface by up to 0.2 to 0.4 spacings in both directions) or "cad" (a
+CAD mesher's strip: rows 4 to 12 times farther apart along the seam than across it and one to three
+triangles across a plane); welded or separate shells; noise 0 (graded with the general profile) or
+0.001 to 0.02 mm along the normals (scan profile); a uniformly random rotation (scipy) and placement.
+The builder has no fillet whose radius varies along the seam; "compound" (two arcs of different radii)
+and "variable" (two arcs joined by a clothoid or a curvature ramp) vary the radius across it.
+
+    PYTHONPATH=. python benchmarks/calibration.py [--quick] [--stations N] [--seed S] [--json FILE]
+        [--plot FILE] [--report FILE] [--processes 1|2] [--case SEED]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")  # two processes share two cores: no threads inside each
+
+import numpy as np  # noqa: E402
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+from surfcheck.blend.mesh import grid_triangles  # noqa: E402
+from surfcheck.blend.steps import hermite_polynomial  # noqa: E402
+from surfcheck.demo import shapes as S  # noqa: E402
+from surfcheck.errors import InputError  # noqa: E402
+from surfcheck.grading.run import grade_seam  # noqa: E402
+from surfcheck.grading.tolerances import GENERAL, SCAN, ToleranceProfile  # noqa: E402
+from tests.fixtures.synthetic import part_and_seams  # noqa: E402
+
+ORDERS = ("G0", "G1", "G2", "G3")
+FAMILIES = ("arc", "compound", "clothoid", "smoothstep", "variable")
+MESHES = ("regular", "jittered", "cad")
+COVERAGE_FACTOR = 2.0  # k of U = k u, as the profiles state it (GUM section 6)
+STATIONS_PER_SEAM = 6  # the seam is made this many default station spacings (two strips) long
+STRIP_EDGES = 10.0  # the grader's default strip half-width in edges (sections.STRIP_EDGES)
+
+
+# ---------------------------------------------------------------- the draws
+
+
+def draw_case(seed: int, noise: float | None = None) -> dict:
+    """The parameters of one randomised part, drawn from ``np.random.default_rng(seed)``.
+
+    Parameters
+    ----------
+    seed : int
+        The case seed; the same seed gives the same part.
+    noise : float, optional
+        Force the noise standard deviation (mm), e.g. 0 for a clean part; drawn otherwise.
+
+    Returns
+    -------
+    dict
+        JSON-able parameters: family, radius, the profile's pieces, sweep, mesh kind and spacing,
+        noise, shells, placement.
+    """
+    rng = np.random.default_rng(seed)
+    family = str(rng.choice(FAMILIES))
+    radius = float(rng.uniform(2.0, 8.0))
+    edge = float(radius * np.exp(rng.uniform(np.log(1 / 30), np.log(1 / 5))))
+    sign = float(rng.choice([1.0, -1.0]))  # +1 convex, -1 concave
+    mesh = str(rng.choice(MESHES))
+    case = {
+        "seed": int(seed), "family": family, "radius": radius, "edge": edge, "edge_over_r": edge / radius,
+        "convex": sign > 0, "mesh": mesh, "sweep": str(rng.choice(["extrude", "revolve"])),
+        "welded": bool(rng.random() < 0.75),
+        "noise": float(rng.choice([0.0, rng.uniform(0.001, 0.02)])) if noise is None else float(noise),
+        "skew": float(rng.choice([0.0, 0.3])) if mesh == "regular" else 0.0,
+        "jitter": float(rng.uniform(0.2, 0.4)) if mesh == "jittered" else 0.0,
+        "aspect": float(np.exp(rng.uniform(np.log(4), np.log(12)))) if mesh == "cad" else 1.0,
+        "plane_cells": int(rng.integers(1, 4)) if mesh == "cad" else 0,
+        "axis_radii": float(rng.uniform(3.0, 10.0)),
+        "heading_deg": float(rng.choice([90.0, -90.0])),
+        "rotation": [float(x) for x in _random_rotation(rng).ravel()],
+        "offset": [float(x) for x in rng.uniform(-50.0, 50.0, 3)],
+        "noise_seed": int(rng.integers(2**31)),
+    }
+    case["pieces"] = _draw_pieces(rng, family, radius, edge, sign)
+    if case["sweep"] == "revolve" and _nearest_axis(case) < 0.25 * case["axis_radii"] * radius:
+        case["heading_deg"] = -case["heading_deg"]  # then the profile turns away from the axis
+    return case
+
+
+def _nearest_axis(case: dict) -> float:
+    profile = build_profile(case)
+    return float(profile.points(np.linspace(0.0, profile.length, 400))[:, 0].min())
+
+
+def _draw_pieces(rng, family: str, r: float, edge: float, sign: float) -> list[list]:
+    """The profile as [kind, name, *arguments] lists (lengths mm, curvatures 1/mm)."""
+    line = max(rng.uniform(2.5, 4.0) * r, 20.0 * edge)
+    k = sign / r
+    if family == "arc":
+        return [["line", "a", line], ["arc", "b", sign * r, rng.uniform(40, 90)], ["line", "c", line]]
+    if family == "compound":
+        r2 = rng.uniform(1.4 * r, max(1.5 * r, 8.0)) if r < 5.5 else rng.uniform(r / 2.5, r / 1.4)
+        return [["line", "a", line], ["arc", "b", sign * r, rng.uniform(25, 45)],
+                ["arc", "c", sign * r2, rng.uniform(25, 45)], ["line", "d", line]]
+    ramp = rng.uniform(0.8, 1.6) * r
+    if family in ("clothoid", "smoothstep"):
+        order = int(rng.choice([1, 1, 2]))
+        kind = "clothoid" if family == "clothoid" else "ramp"
+        return [["line", "a", line], [kind, "b", ramp, 0.0, k, order], ["arc", "c", sign * r, rng.uniform(20, 40)],
+                [kind, "d", ramp, k, 0.0, order], ["line", "e", line]]
+    r2 = rng.uniform(1.5 * r, 2.5 * r)
+    kind = str(rng.choice(["clothoid", "ramp"]))
+    return [["line", "a", line], ["arc", "b", sign * r, rng.uniform(20, 40)],
+            [kind, "c", ramp, k, sign / r2, int(rng.choice([1, 2]))], ["arc", "d", sign * r2, rng.uniform(20, 40)],
+            ["line", "e", line]]
+
+
+def _random_rotation(rng) -> np.ndarray:
+    from scipy.spatial.transform import Rotation
+
+    return Rotation.random(random_state=int(rng.integers(2**31))).as_matrix()
+
+
+# ---------------------------------------------------------------- the part
+
+
+def build_profile(case: dict) -> S.Profile:
+    """The case's profile from the shape builder; revolved profiles start where the first curved
+    piece lies ``axis_radii`` radii from the axis."""
+    pieces = tuple(_piece(spec) for spec in case["pieces"])
+    profile = S.Profile(pieces, start=(0.0, 0.0), heading_deg=case["heading_deg"])
+    if case["sweep"] == "extrude":
+        return profile
+    seam_x = profile.points(profile.boundaries[1:2])[0, 0]
+    start = case["axis_radii"] * case["radius"] - seam_x
+    return S.Profile(pieces, start=(float(start), 0.0), heading_deg=case["heading_deg"])
+
+
+def _piece(spec: list) -> S.Piece:
+    kind, name, *args = spec
+    if kind == "line":
+        return S.line(args[0], name)
+    if kind == "arc":
+        return S.arc(args[0], name, angle_deg=args[1])
+    if kind == "clothoid":
+        return S.clothoid(args[0], args[1], args[2], name)
+    return S.ramp(args[0], args[1], args[2], name, order=args[3])
+
+
+def build_mesh(case: dict, profile: S.Profile) -> tuple[S.SyntheticMesh, np.ndarray]:
+    """The case's mesh (seams with their vertices) and its vertices after placement and noise."""
+    rotation = np.asarray(case["rotation"]).reshape(3, 3)
+    seam_length = STATIONS_PER_SEAM * 2.0 * STRIP_EDGES * case["edge"] * case["aspect"]
+    if case["mesh"] == "regular":
+        common = dict(separate_shells=not case["welded"], rotation=rotation, skew=case["skew"])
+        if case["sweep"] == "extrude":
+            mesh = S.extrude(profile, seam_length, case["edge"], **common)
+        else:
+            mesh = S.revolve(profile, case["edge"], sweep_deg=_sweep_deg(case, seam_length), **common)
+    else:
+        mesh = _grid_mesh(case, profile, seam_length, rotation)
+    V = mesh.vertices + np.asarray(case["offset"])
+    if case["noise"] > 0:
+        V = S.add_normal_noise(V, mesh.faces, case["noise"], seed=case["noise_seed"])
+    return mesh, V
+
+
+def _sweep_deg(case: dict, seam_length: float) -> float:
+    return float(min(360.0, np.degrees(seam_length / (case["axis_radii"] * case["radius"]))))
+
+
+def _grid_mesh(case: dict, profile: S.Profile, seam_length: float, rotation: np.ndarray) -> S.SyntheticMesh:
+    """A jittered or CAD-like grid over the exact profile: columns (profile samples) ``edge`` apart
+    across curved pieces (``plane_cells`` cells across a line on a CAD-like mesh), rows ``aspect``
+    edges apart along the seam; ``jitter`` moves every vertex but the pieces' end columns (and the
+    grid's end rows) by a uniform fraction of a spacing in each direction. Vertices lie on the exact
+    surface. The builder's grid (shapes._sweep) has one spacing both ways, hence this generator."""
+    rng = np.random.default_rng(case["noise_seed"] + 1)
+    edge, along = case["edge"], case["edge"] * case["aspect"]
+    columns = []  # per piece, its samples' arc lengths (ends included)
+    for start, piece in zip(profile.boundaries[:-1], profile.body):
+        cells = case["plane_cells"] if (case["mesh"] == "cad" and piece.kind == "line") else \
+            max(1, int(np.ceil(piece.length / edge - 1e-9)))
+        columns.append(start + np.linspace(0.0, piece.length, cells + 1))
+    s = np.concatenate([columns[0]] + [c[1:] for c in columns[1:]])
+    ends = np.cumsum([0] + [len(c) - 1 for c in columns])  # column index of each piece boundary
+    fixed = np.zeros(len(s), bool)
+    fixed[ends] = True
+    closed = case["sweep"] == "revolve" and _sweep_deg(case, seam_length) >= 360.0
+    if case["sweep"] == "extrude":
+        extent = seam_length
+    else:
+        r_max = profile.points(s)[:, 0].max()
+        extent = np.radians(_sweep_deg(case, seam_length)) * r_max
+    n_rows = max(3, int(np.ceil(extent / along - 1e-9))) + (0 if closed else 1)
+    t = np.arange(n_rows) / (n_rows if closed else n_rows - 1)  # 0..1 along the seam
+    j = case["jitter"]
+    ds = np.diff(s)
+    step_s = np.minimum(np.r_[ds, ds[-1]], np.r_[ds[0], ds])  # the smaller neighbouring spacing
+    S_grid = s[None, :] + (~fixed)[None, :] * rng.uniform(-j, j, (n_rows, len(s))) * step_s[None, :]
+    row_free = np.ones(n_rows, bool) if closed else np.r_[False, np.ones(n_rows - 2, bool), False]
+    dt = 1.0 / (n_rows if closed else n_rows - 1)
+    T_grid = t[:, None] + row_free[:, None] * rng.uniform(-j, j, (n_rows, len(s))) * dt
+    xy = profile.points(S_grid.ravel())
+    if case["sweep"] == "extrude":
+        V = np.column_stack([xy, T_grid.ravel() * seam_length])
+    else:
+        phi = T_grid.ravel() * np.radians(_sweep_deg(case, seam_length))
+        V = np.column_stack([xy[:, 0] * np.cos(phi), xy[:, 0] * np.sin(phi), xy[:, 1]])
+    ids = np.arange(n_rows * len(s)).reshape(n_rows, len(s))
+    faces, groups = [], []
+    for g in range(len(columns)):
+        block = grid_triangles(0, n_rows, ends[g + 1] - ends[g] + 1, closed)
+        row, col = np.divmod(block, ends[g + 1] - ends[g] + 1)
+        faces.append(ids[row, col + ends[g]])
+        groups.append(np.full(len(block), g))
+    F = np.concatenate(faces)
+    if case["sweep"] == "revolve":
+        F = F[:, [0, 2, 1]]  # outward, as the builder's revolve
+    G = np.concatenate(groups)
+    seam_columns = [(ids[:, ends[g + 1]], ids[:, ends[g + 1]]) for g in range(len(columns) - 1)]
+    if not case["welded"]:
+        V, F, seam_columns = _separate_shells(V, F, G, seam_columns)
+    seams = tuple(S.SeamTruth(profile.names[g], profile.names[g + 1], a, b, closed, float(profile.boundaries[g + 1]))
+                  for g, (a, b) in enumerate(seam_columns))
+    return S.SyntheticMesh(V @ rotation.T, F, G, profile.names, seams, rotation)
+
+
+def _separate_shells(V, F, G, seam_columns):
+    """Every group its own copy of its vertices; seam g runs between groups g and g + 1."""
+    new_V, new_F, maps = [], np.empty_like(F), []
+    base = 0
+    for g in range(G.max() + 1):
+        used = np.unique(F[G == g])
+        lookup = np.full(len(V), -1)
+        lookup[used] = base + np.arange(len(used))
+        new_F[G == g] = lookup[F[G == g]]
+        new_V.append(V[used])
+        maps.append(lookup)
+        base += len(used)
+    columns = [(maps[g][a], maps[g + 1][b]) for g, (a, b) in enumerate(seam_columns)]
+    return np.concatenate(new_V), new_F, columns
+
+
+# ---------------------------------------------------------------- the truth
+
+
+def end_values(piece: S.Piece) -> tuple[np.ndarray, np.ndarray]:
+    """(curvature, rate d kappa / ds) at the piece's start and end, exactly: a clothoid's rate is
+    (k1 - k0) / L; a ramp's is (k1 - k0) / L phi'(x) with phi the Hermite smoothstep (phi' = 0 at both
+    ends for order >= 1); lines and arcs have rate 0."""
+    kappa = piece.curvature(np.array([0.0, piece.length]))
+    slope = (piece.k_end - piece.k_start) / piece.length if piece.length else 0.0
+    if piece.kind == "clothoid":
+        return kappa, np.array([slope, slope])
+    if piece.kind == "ramp":
+        return kappa, slope * hermite_polynomial(piece.order).deriv()(np.array([0.0, 1.0]))
+    return kappa, np.zeros(2)
+
+
+@dataclass(frozen=True)
+class SeamTruth:
+    """The true jump of every order across one seam, and whether it meets the profile's tolerance
+    (computed from the true curvatures and rates as the grader computes it from its estimates)."""
+
+    jumps: tuple[float, float, float, float]
+    tolerances: tuple[float, float, float, float]
+
+    @property
+    def meets(self) -> tuple[bool, ...]:
+        return tuple(j <= t for j, t in zip(self.jumps, self.tolerances))
+
+    @property
+    def designed(self) -> int:
+        """The highest k with G0..Gk all met (-1 when G0 is not)."""
+        k = -1
+        for met in self.meets:
+            if not met:
+                break
+            k += 1
+        return k
+
+
+def seam_truth(a: S.Piece, b: S.Piece, profile: ToleranceProfile) -> SeamTruth:
+    """The true jumps where piece ``a`` runs into piece ``b`` (tangentially: G0 and G1 are 0)."""
+    (_, ka), (_, ra) = end_values(a)
+    (kb, _), (rb, _) = end_values(b)
+    g2, g3 = abs(kb - ka), abs(rb - ra)
+    tol2 = max(profile.g2_abs, profile.g2_rel * max(abs(ka), abs(kb)))
+    tol3 = max(profile.g3_abs, profile.g3_rel * max(abs(ra), abs(rb)))
+    return SeamTruth((0.0, 0.0, float(g2), float(g3)), (profile.g0_gap, profile.g1_angle, tol2, tol3))
+
+
+# ---------------------------------------------------------------- grading one case
+
+
+def run_case(case: dict) -> list[dict]:
+    """Grade every seam of the case's part: one row per seam with its truth, its grade and its
+    stations (value, u, status per order), or the one-line reason it could not be graded."""
+    profile = build_profile(case)
+    mesh, V = build_mesh(case, profile)
+    part, curves = part_and_seams(mesh, V)
+    tolerance = SCAN if case["noise"] > 0 else GENERAL
+    rows = []
+    for index, curve in enumerate(curves):
+        truth = seam_truth(profile.body[index], profile.body[index + 1], tolerance)
+        row = {"case": case, "seam": curve.id, "profile": tolerance.name, "truth": list(truth.jumps),
+               "truth_tolerance": list(truth.tolerances), "meets": list(truth.meets), "designed": truth.designed}
+        t0 = time.perf_counter()
+        try:
+            grade = grade_seam(part, curve, tolerance)
+        except InputError as error:
+            rows.append({**row, "error": str(error), "stations": []})
+            continue
+        row.update(seconds=time.perf_counter() - t0, achieved=grade.achieved,
+                   status=[str(o.status) for o in grade.orders],
+                   stations=[{"index": st.index, "s": st.s,
+                              "value": [float(o.value) for o in st.orders],
+                              "u": [float(o.uncertainty) if np.isfinite(o.uncertainty) else None for o in st.orders],
+                              "status": [str(o.status) for o in st.orders]} for st in grade.stations])
+        rows.append(row)
+    return rows
+
+
+# ---------------------------------------------------------------- measures
+
+
+def station_errors(row: dict, order: int) -> np.ndarray:
+    """Per station |value - truth| / U (U = k u); inf where u is infinite or 0 with an error, nan
+    where nothing is known. Covered where <= 1."""
+    out = []
+    for st in row["stations"]:
+        u = st["u"][order]
+        error = abs(st["value"][order] - row["truth"][order])
+        if u is None or not np.isfinite(st["value"][order]):
+            out.append(np.inf)
+        elif u == 0:
+            out.append(0.0 if error == 0 else np.inf)
+        else:
+            out.append(error / (COVERAGE_FACTOR * u))
+    return np.array(out)
+
+
+def seam_outcomes(row: dict, order: int) -> dict:
+    """The seam's outcome for one order against its truth: false fail, false ok, exact."""
+    status, met = row["status"][order], row["meets"][order]
+    return {"false_fail": status == "fail" and met, "false_ok": status == "ok" and not met,
+            "exact": status == ("ok" if met else "fail")}
+
+
+def summary(rows: list[dict], select=lambda row: True) -> dict:
+    """Per order: coverage (covered / stations), the share with no finite u, seam false-fail and
+    false-ok rates, the share of seams whose status matches the truth; per seam the share with
+    achieved == designed. Over the graded rows that ``select`` keeps."""
+    graded = [r for r in rows if "error" not in r and select(r)]
+    out = {"seams": len(graded), "stations": sum(len(r["stations"]) for r in graded), "orders": []}
+    for k in range(4):
+        z = np.concatenate([station_errors(r, k) for r in graded]) if graded else np.zeros(0)
+        outcomes = [seam_outcomes(r, k) for r in graded]
+        n = max(1, len(outcomes))
+        out["orders"].append({
+            "coverage": float(np.mean(z <= 1.0)) if len(z) else float("nan"),
+            "unresolved": float(np.mean(~np.isfinite(z))) if len(z) else float("nan"),
+            "false_fail": sum(o["false_fail"] for o in outcomes) / n,
+            "false_ok": sum(o["false_ok"] for o in outcomes) / n,
+            "exact": sum(o["exact"] for o in outcomes) / n,
+        })
+    out["achieved_exact"] = float(np.mean([r["achieved"] == r["designed"] for r in graded])) if graded else float("nan")
+    return out
+
+
+def worst_cases(rows: list[dict], count: int = 5) -> list[dict]:
+    """The ``count`` station values farthest outside U (|error| / U), one per seam and order."""
+    found = []
+    for r in rows:
+        for k in range(4):
+            z = station_errors(r, k)
+            finite = np.where(np.isfinite(z), z, -1.0)
+            if len(z) and finite.max() > 1.0:
+                i = int(np.argmax(finite))
+                st = r["stations"][i]
+                found.append({"z": float(finite[i]), "order": ORDERS[k], "seam": r["seam"], "station": st["index"],
+                              "value": st["value"][k], "u": st["u"][k], "truth": r["truth"][k], "case": r["case"]})
+    return sorted(found, key=lambda f: -f["z"])[:count]
+
+
+def resolution(rows: list[dict]) -> list[dict]:
+    """Per order, edge/r bin and noise class: the median U of stations with finite u (the smallest
+    jump told from zero half the time) and, over stations with a non-zero true jump, the share read
+    as non-zero (value - U > 0)."""
+    bins = np.array([1 / 30, 1 / 20, 1 / 12, 1 / 8, 1 / 5 + 1e-9])
+    classes = (("clean", lambda n: n == 0), ("<=0.01", lambda n: 0 < n <= 0.01), (">0.01", lambda n: n > 0.01))
+    out = []
+    graded = [r for r in rows if "error" not in r]
+    for k in range(1, 4):
+        for lo, hi in zip(bins[:-1], bins[1:]):
+            for label, keep in classes:
+                sel = [r for r in graded if lo <= r["case"]["edge_over_r"] < hi and keep(r["case"]["noise"])]
+                U = [COVERAGE_FACTOR * st["u"][k] for r in sel for st in r["stations"] if st["u"][k] is not None]
+                told = [st["value"][k] - COVERAGE_FACTOR * st["u"][k] > 0 for r in sel if r["truth"][k] > 0
+                        for st in r["stations"] if st["u"][k] is not None]
+                nonzero = sum(len(r["stations"]) for r in sel if r["truth"][k] > 0)
+                out.append({"order": ORDERS[k], "edge_over_r": [float(lo), float(hi)], "noise": label,
+                            "median_U": float(np.median(U)) if U else None, "stations": len(U),
+                            "told_from_zero": sum(told) / nonzero if nonzero else None, "nonzero_stations": nonzero})
+    return out
+
+
+# ---------------------------------------------------------------- report
+
+
+def _pct(x: float) -> str:
+    return "-" if not np.isfinite(x) else f"{100 * x:5.1f}"
+
+
+def report(rows: list[dict], seed: int, seconds: float) -> str:
+    """The tables as markdown: per order overall, by mesh kind and by family; resolution; worst cases."""
+    clean, noisy = (lambda r: r["case"]["noise"] == 0), (lambda r: r["case"]["noise"] > 0)
+    total = summary(rows)
+    errors = [r for r in rows if "error" in r]
+    lines = [f"calibration benchmark: seed {seed}, {total['seams']} seams graded ({len(errors)} not gradable), "
+             f"{total['stations']} stations, {seconds:.0f} s", "",
+             "Per order (percent; coverage: |value - truth| <= 2u; no u: stations without a finite u, "
+             "counted as not covered; false fail / false ok / exact: per seam):", "",
+             "| order | coverage clean | coverage noisy | no u clean | no u noisy | false fail clean | false fail noisy "
+             "| false ok | exact clean | exact noisy |", "|---|---|---|---|---|---|---|---|---|---|"]
+    sc, sn = summary(rows, clean), summary(rows, noisy)
+    for k in range(4):
+        c, n, t = sc["orders"][k], sn["orders"][k], total["orders"][k]
+        lines.append(f"| {ORDERS[k]} | {_pct(c['coverage'])} | {_pct(n['coverage'])} | {_pct(c['unresolved'])} | "
+                     f"{_pct(n['unresolved'])} | {_pct(c['false_fail'])} | {_pct(n['false_fail'])} | "
+                     f"{_pct(t['false_ok'])} | {_pct(c['exact'])} | {_pct(n['exact'])} |")
+    fine = summary(rows, lambda r: clean(r) and r["case"]["edge_over_r"] <= 0.1)
+    lines += ["", f"Seams graded exactly (achieved == designed): clean {_pct(sc['achieved_exact'])} % of "
+              f"{sc['seams']}, clean with edge <= r/10 {_pct(fine['achieved_exact'])} % of {fine['seams']}, "
+              f"noisy {_pct(sn['achieved_exact'])} % of {sn['seams']}."]
+    for title, key, values in (("mesh kind", "mesh", MESHES), ("family", "family", FAMILIES),
+                               ("sweep", "sweep", ("extrude", "revolve")), ("welded", "welded", (True, False))):
+        lines += ["", f"By {title} (coverage clean / noisy per order, false fails per seam over all orders, "
+                  "achieved == designed on clean seams):", "",
+                  f"| {title} | seams | G0 | G1 | G2 | G3 | false-fail seams | exact clean |", "|---|---|---|---|---|---|---|---|"]
+        for value in values:
+            part = [r for r in rows if r["case"][key] == value]
+            c, n = summary(part, clean), summary(part, noisy)
+            graded = [r for r in part if "error" not in r]
+            ff = sum(any(seam_outcomes(r, k)["false_fail"] for k in range(4)) for r in graded)
+            cells = " | ".join(f"{_pct(c['orders'][k]['coverage'])} / {_pct(n['orders'][k]['coverage'])}" for k in range(4))
+            lines.append(f"| {value} | {len(graded)} | {cells} | {ff} | {_pct(c['achieved_exact'])} |")
+    lines += ["", "Resolution (median U = 2u, the smallest jump told from zero about half the time; "
+              "told: share of stations with a non-zero true jump read as non-zero):", "",
+              "| order | edge / r | noise | stations | median U | told / non-zero stations |", "|---|---|---|---|---|---|"]
+    for cell in resolution(rows):
+        if cell["stations"]:
+            told = "-" if cell["told_from_zero"] is None else f"{cell['told_from_zero']:.2f} / {cell['nonzero_stations']}"
+            lines.append(f"| {cell['order']} | r/{1 / cell['edge_over_r'][0]:.0f} to r/{1 / cell['edge_over_r'][1]:.0f} | "
+                         f"{cell['noise']} | {cell['stations']} | {cell['median_U']:.3g} | {told} |")
+    lines += ["", "Worst station values (|value - truth| / U; replay: --case SEED):", ""]
+    for w in worst_cases(rows):
+        c = w["case"]
+        u = "none" if w["u"] is None else f"{w['u']:.3g}"
+        lines.append(f"- {w['z']:.3g} U: case {c['seed']} {c['family']} {c['sweep']} {c['mesh']} "
+                     f"{'convex' if c['convex'] else 'concave'} {'welded' if c['welded'] else 'separate'}, "
+                     f"r {c['radius']:.2f}, edge {c['edge']:.3f} (r/{1 / c['edge_over_r']:.1f}), noise {c['noise']:.4f}, "
+                     f"aspect {c['aspect']:.1f}, seam {w['seam']} station {w['station']}: {w['order']} "
+                     f"{w['value']:.4g} (u {u}) against truth {w['truth']:.4g}")
+    if errors:
+        lines += ["", "Not gradable: " + "; ".join(f"case {r['case']['seed']} {r['seam']}: {r['error']}" for r in errors[:5])]
+    return "\n".join(lines) + "\n"
+
+
+def plot(rows: list[dict], path: Path) -> None:
+    """Coverage per order against edge / r (log bins), clean and noisy, with the 95 % target."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    edges = np.exp(np.linspace(np.log(1 / 30), np.log(1 / 5 + 1e-9), 6))
+    centres = np.sqrt(edges[1:] * edges[:-1])
+    fig, axes = plt.subplots(1, 4, figsize=(14, 3.6), sharey=True)
+    for k, ax in enumerate(axes):
+        for label, keep, style in (("clean", lambda n: n == 0, "o-"), ("noisy", lambda n: n > 0, "s--")):
+            cover = []
+            for lo, hi in zip(edges[:-1], edges[1:]):
+                z = [station_errors(r, k) for r in rows if "error" not in r and keep(r["case"]["noise"])
+                     and lo <= r["case"]["edge_over_r"] < hi]
+                z = np.concatenate(z) if z else np.zeros(0)
+                cover.append(np.mean(z <= 1.0) if len(z) else np.nan)
+            ax.semilogx(centres, cover, style, label=label)
+        ax.axhline(0.95, color="grey", lw=0.8, ls=":")
+        ax.set_title(f"{ORDERS[k]}: |value - truth| <= 2u")
+        ax.set_xlabel("edge / r")
+        ax.set_ylim(0, 1.02)
+    axes[0].set_ylabel("coverage")
+    axes[0].legend(loc="lower left")
+    fig.tight_layout()
+    fig.savefig(path, dpi=110)
+    plt.close(fig)
+
+
+# ---------------------------------------------------------------- driver
+
+
+def run(target: int, seed: int, processes: int, noise: float | None = None, progress=None) -> list[dict]:
+    """Grade randomised cases (case seeds seed * 100000 + i) until ``target`` stations are graded,
+    in ``processes`` worker processes (at most 2)."""
+    rows, i = [], 0
+    with _pool(processes) as pool:
+        while sum(len(r["stations"]) for r in rows) < target:
+            done = sum(len(r["stations"]) for r in rows)
+            per_case = done / i if i and done else 4 * STATIONS_PER_SEAM
+            batch = max(processes, int(np.ceil(1.1 * (target - done) / per_case)))
+            cases = [draw_case(seed * 100000 + j, noise) for j in range(i, i + batch)]
+            i += batch
+            for case_rows in pool.imap_unordered(run_case, cases):
+                rows += case_rows
+                if progress:
+                    progress(rows)
+    return rows
+
+
+class _Serial:
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
+
+    @staticmethod
+    def imap_unordered(f, items):
+        return map(f, items)
+
+
+def _pool(processes: int):
+    if processes <= 1:
+        return _Serial()
+    import multiprocessing
+
+    return multiprocessing.get_context("fork").Pool(min(2, processes))
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("--stations", type=int, default=2000, help="stations to grade at least (default 2000)")
+    parser.add_argument("--quick", action="store_true", help="about 150 stations")
+    parser.add_argument("--seed", type=int, default=1)
+    parser.add_argument("--processes", type=int, default=2, choices=(1, 2))
+    parser.add_argument("--json", type=Path, help="write every seam row (case parameters, truth, stations) here")
+    parser.add_argument("--plot", type=Path, help="coverage per order against edge / r, PNG")
+    parser.add_argument("--report", type=Path, help="write the tables (markdown) here")
+    parser.add_argument("--case", type=int, help="replay one case seed and print its seams' stations")
+    args = parser.parse_args()
+    if args.case is not None:
+        for row in run_case(draw_case(args.case)):
+            print(json.dumps({k: v for k, v in row.items() if k != "case"}, default=float))
+        print(json.dumps(draw_case(args.case)))
+        return
+    target = 150 if args.quick else args.stations
+    t0 = time.perf_counter()
+
+    def progress(rows):
+        n = sum(len(r["stations"]) for r in rows)
+        print(f"  {len(rows)} seams, {n} stations, {time.perf_counter() - t0:.0f} s", file=sys.stderr, flush=True)
+
+    rows = run(target, args.seed, args.processes, progress=progress)
+    text = report(rows, args.seed, time.perf_counter() - t0)
+    print(text)
+    if args.report:
+        args.report.write_text(text)
+    if args.json:
+        args.json.write_text(json.dumps(rows, indent=1))
+    if args.plot:
+        plot(rows, args.plot)
+
+
+if __name__ == "__main__":
+    main()

@@ -59,7 +59,7 @@ from surfcheck.grading.tolerances import GENERAL, SCAN, ToleranceProfile  # noqa
 from tests.fixtures.synthetic import part_and_seams  # noqa: E402
 
 ORDERS = ("G0", "G1", "G2", "G3")
-FAMILIES = ("arc", "compound", "clothoid", "smoothstep", "variable")
+FAMILIES = ("corner", "arc", "compound", "clothoid", "smoothstep", "variable")
 MESHES = ("regular", "jittered", "cad")
 COVERAGE_FACTOR = 2.0  # k of U = k u, as the profiles state it (GUM section 6)
 STATIONS_PER_SEAM = 6  # the seam is made this many default station spacings (two strips) long
@@ -125,6 +125,10 @@ def _draw_pieces(rng, family: str, r: float, edge: float, sign: float) -> list[l
     k = sign / r
     if family == "arc":
         return [["line", "a", line], ["arc", "b", sign * r, rng.uniform(40, 90)], ["line", "c", line]]
+    if family == "corner":  # a kink of 0.1 to 20 degrees (log-uniform), both sides of the G1 tolerances
+        kink = sign * np.exp(rng.uniform(np.log(0.1), np.log(20.0)))
+        return [["line", "a", line], ["corner", "", kink], ["line", "b", line],
+                ["arc", "c", sign * r, rng.uniform(40, 90)], ["line", "d", line]]
     if family == "compound":
         r2 = rng.uniform(1.4 * r, max(1.5 * r, 8.0)) if r < 5.5 else rng.uniform(r / 2.5, r / 1.4)
         return [["line", "a", line], ["arc", "b", sign * r, rng.uniform(25, 45)],
@@ -169,6 +173,8 @@ def _piece(spec: list) -> S.Piece:
         return S.line(args[0], name)
     if kind == "arc":
         return S.arc(args[0], name, angle_deg=args[1])
+    if kind == "corner":
+        return S.corner(args[0])
     if kind == "clothoid":
         return S.clothoid(args[0], args[1], args[2], name)
     return S.ramp(args[0], args[1], args[2], name, order=args[3])
@@ -286,7 +292,7 @@ def end_values(piece: S.Piece) -> tuple[np.ndarray, np.ndarray]:
 
 
 @dataclass(frozen=True)
-class SeamTruth:
+class JumpTruth:
     """The true jump of every order across one seam, and whether it meets the profile's tolerance
     (computed from the true curvatures and rates as the grader computes it from its estimates)."""
 
@@ -308,14 +314,21 @@ class SeamTruth:
         return k
 
 
-def seam_truth(a: S.Piece, b: S.Piece, profile: ToleranceProfile) -> SeamTruth:
-    """The true jumps where piece ``a`` runs into piece ``b`` (tangentially: G0 and G1 are 0)."""
+def seam_truth(profile: S.Profile, index: int, tolerance: ToleranceProfile) -> JumpTruth:
+    """The true jumps across seam ``index`` of the profile (between its body pieces index and index + 1):
+    G0 0 (the pieces meet), G1 the heading jump of a corner between them (else 0), G2 and G3 the jumps of
+    the curvature and its rate; tolerances as the grader computes them (continuity.decide_orders), from
+    the true values."""
+    a, b = profile.body[index], profile.body[index + 1]
+    between = profile.pieces[profile.pieces.index(a) + 1:profile.pieces.index(b)]
+    turn = abs(float(np.degrees(sum(p.turn for p in between))))
     (_, ka), (_, ra) = end_values(a)
     (kb, _), (rb, _) = end_values(b)
     g2, g3 = abs(kb - ka), abs(rb - ra)
-    tol2 = max(profile.g2_abs, profile.g2_rel * max(abs(ka), abs(kb)))
-    tol3 = max(profile.g3_abs, profile.g3_rel * max(abs(ra), abs(rb)))
-    return SeamTruth((0.0, 0.0, float(g2), float(g3)), (profile.g0_gap, profile.g1_angle, float(tol2), float(tol3)))
+    tol2 = max(tolerance.g2_abs, tolerance.g2_rel * max(abs(ka), abs(kb)))
+    tol3 = max(tolerance.g3_abs, tolerance.g3_rel * max(abs(ra), abs(rb)))
+    return JumpTruth((0.0, turn, float(g2), float(g3)),
+                     (tolerance.g0_gap, tolerance.g1_angle, float(tol2), float(tol3)))
 
 
 # ---------------------------------------------------------------- grading one case
@@ -330,7 +343,7 @@ def run_case(case: dict) -> list[dict]:
     tolerance = SCAN if case["noise"] > 0 else GENERAL
     rows = []
     for index, curve in enumerate(curves):
-        truth = seam_truth(profile.body[index], profile.body[index + 1], tolerance)
+        truth = seam_truth(profile, index, tolerance)
         row = {"case": case, "seam": curve.id, "profile": tolerance.name, "truth": list(truth.jumps),
                "truth_tolerance": list(truth.tolerances), "meets": list(truth.meets), "designed": truth.designed}
         t0 = time.perf_counter()
@@ -396,11 +409,12 @@ def summary(rows: list[dict], select=lambda row: True) -> dict:
     return out
 
 
-def worst_cases(rows: list[dict], count: int = 5) -> list[dict]:
-    """The ``count`` station values farthest outside U (|error| / U), one per seam and order."""
+def worst_cases(rows: list[dict], count: int = 5, order: int | None = None) -> list[dict]:
+    """The ``count`` station values farthest outside U (|error| / U), the worst station of each seam
+    and order (of one ``order`` if given)."""
     found = []
     for r in rows:
-        for k in range(4):
+        for k in range(4) if order is None else (order,):
             z = station_errors(r, k)
             finite = np.where(np.isfinite(z), z, -1.0)
             if len(z) and finite.max() > 1.0:
@@ -516,8 +530,9 @@ def _resolution_table(rows: list[dict]) -> list[str]:
 
 
 def _worst_lines(rows: list[dict]) -> list[str]:
-    lines = ["", "Worst station values (|value - truth| / U; replay: --case SEED):", ""]
-    for w in worst_cases(rows):
+    lines = ["", "Worst station values (|value - truth| / U; replay: --case SEED), overall and per order:", ""]
+    listed = worst_cases(rows) + [w for k in range(4) for w in worst_cases(rows, 2, k)]
+    for w in listed:
         c = w["case"]
         u = "none" if w["u"] is None else f"{w['u']:.3g}"
         lines.append(f"- {w['z']:.3g} U: case {c['seed']} {c['family']} {c['sweep']} {c['mesh']} "

@@ -30,7 +30,7 @@ The builder has no fillet whose radius varies along the seam; "compound" (two ar
 and "variable" (two arcs joined by a clothoid or a curvature ramp) vary the radius across it.
 
     PYTHONPATH=. python benchmarks/calibration.py [--quick] [--stations N] [--seed S] [--json FILE]
-        [--plot FILE] [--report FILE] [--processes 1|2] [--case SEED] [--rows FILE]
+        [--plot FILE] [--report FILE] [--processes 1|2] [--cell PARTS] [--rows FILE] [--case SEED]
 """
 
 from __future__ import annotations
@@ -69,35 +69,38 @@ STRIP_EDGES = 10.0  # the grader's default strip half-width in edges (sections.S
 # ---------------------------------------------------------------- the draws
 
 
-def draw_case(seed: int, noise: float | None = None) -> dict:
+def draw_case(seed: int, **fixed) -> dict:
     """The parameters of one randomised part, drawn from ``np.random.default_rng(seed)``.
 
     Parameters
     ----------
     seed : int
-        The case seed; the same seed gives the same part.
-    noise : float, optional
-        Force the noise standard deviation (mm), e.g. 0 for a clean part, in place of the drawn one
-        (the other draws stay as they are).
+        The case seed; the same seed (and the same ``fixed``) gives the same part.
+    **fixed
+        Values to use in place of the drawn ones: ``family``, ``radius`` (mm), ``edge`` (mm) and
+        ``noise`` (standard deviation, mm; 0 for a clean part). The other draws stay as they are.
 
     Returns
     -------
     dict
         JSON-able parameters: family, radius, the profile's pieces, sweep, mesh kind and spacing,
-        noise, shells, placement.
+        noise, shells, placement; ``fixed`` lists the names given.
     """
+    unknown = set(fixed) - {"family", "radius", "edge", "noise"}
+    if unknown:
+        raise ValueError(f"cannot fix {', '.join(sorted(unknown))}")
     rng = np.random.default_rng(seed)
-    family = str(rng.choice(FAMILIES))
-    radius = float(rng.uniform(2.0, 8.0))
-    edge = float(radius * np.exp(rng.uniform(np.log(1 / 30), np.log(1 / 5))))
+    family = fixed.get("family", str(rng.choice(FAMILIES)))
+    radius = float(fixed.get("radius", rng.uniform(2.0, 8.0)))
+    edge = float(fixed.get("edge", radius * np.exp(rng.uniform(np.log(1 / 30), np.log(1 / 5)))))
     sign = float(rng.choice([1.0, -1.0]))  # +1 convex, -1 concave
     mesh = str(rng.choice(MESHES))
-    drawn_noise = float(rng.choice([0.0, rng.uniform(0.001, 0.02)]))
+    noise = float(fixed.get("noise", rng.choice([0.0, rng.uniform(0.001, 0.02)])))
     case = {
         "seed": int(seed), "family": family, "radius": radius, "edge": edge, "edge_over_r": edge / radius,
         "convex": sign > 0, "mesh": mesh, "sweep": str(rng.choice(["extrude", "revolve"])),
         "welded": bool(rng.random() < 0.75),
-        "noise": drawn_noise if noise is None else float(noise),
+        "noise": noise, "fixed": sorted(fixed),
         "skew": float(rng.choice([0.0, 0.3])) if mesh == "regular" else 0.0,
         "jitter": float(rng.uniform(0.2, 0.4)) if mesh == "jittered" else 0.0,
         "aspect": float(np.exp(rng.uniform(np.log(4), np.log(12)))) if mesh == "cad" else 1.0,
@@ -454,14 +457,16 @@ def _pct(x: float) -> str:
     return "-" if not np.isfinite(x) else f"{100 * x:5.1f}"
 
 
-def report(rows: list[dict], seed: int, seconds: float) -> str:
-    """The tables as markdown: per order overall, by mesh kind, family, sweep and shells; resolution;
-    the worst station values."""
+def report(rows: list[dict], cell: list[dict], seed: int) -> str:
+    """The tables as markdown: issue 13's acceptance figures; per order overall, by mesh kind, family,
+    sweep and shells; resolution; the worst station values."""
     total = summary(rows)
     errors = [r for r in rows if "error" in r]
+    seconds = sum(r.get("seconds", 0.0) for r in rows + cell)
     lines = [f"calibration benchmark: seed {seed}, {total['seams']} seams graded ({len(errors)} not gradable), "
-             f"{total['stations']} stations, {seconds:.0f} s of grading", ""]
-    lines += _order_table(rows)
+             f"{total['stations']} stations, and {len(cell)} seams of the acceptance cell; {seconds:.0f} s of "
+             "grading", ""]
+    lines += acceptance(rows, cell) + _order_table(rows)
     for title, key in (("mesh kind", lambda c: c["mesh"]), ("family", lambda c: c["family"]),
                        ("sweep", lambda c: c["sweep"]), ("shells", lambda c: "welded" if c["welded"] else "separate")):
         lines += _breakdown_table(rows, title, key)
@@ -470,6 +475,40 @@ def report(rows: list[dict], seed: int, seconds: float) -> str:
         lines += ["", "Not gradable: " + "; ".join(f"case {r['case']['seed']} {r['seam']}: {r['error']}"
                                                    for r in errors[:5])]
     return "\n".join(lines) + "\n"
+
+
+def acceptance(rows: list[dict], cell: list[dict]) -> list[str]:
+    """Issue 13's "done when" figures that this benchmark measures, each against its threshold."""
+    clean, noisy, total = summary(rows, _clean), summary(rows, _noisy), summary(rows)
+    graded = [r for r in rows if "error" not in r]
+    failing = [r for r in graded if any(seam_outcomes(r, k)["false_fail"] for k in range(4))]
+    failing_clean = [r for r in failing if _clean(r)]
+    fine = summary(rows, lambda r: _clean(r) and r["case"]["edge_over_r"] <= 0.1)
+    continuous = [r for r in cell if "error" not in r and r["designed"] >= 2]
+    reaching = sum(r["achieved"] >= 2 for r in continuous)
+    lines = ["Issue 13 acceptance (measured here):", "", "| criterion | threshold | measured | met |",
+             "|---|---|---|---|"]
+
+    def add(criterion, threshold, measured, met):
+        lines.append(f"| {criterion} | {threshold} | {measured} | {'yes' if met else 'no'} |")
+
+    for name, part in (("clean", clean), ("noisy", noisy)):
+        cover = [o["coverage"] for o in part["orders"]]
+        add(f"coverage, every order, {name}", ">= 95 %", " / ".join(_pct(c).strip() for c in cover) + " %",
+            min(cover) >= 0.95)
+    add("seams failing an order they meet", "<= 1 %",
+        f"{len(failing)} of {total['seams']} ({_pct(len(failing) / max(1, total['seams'])).strip()} %)",
+        len(failing) <= 0.01 * total["seams"])
+    add("... of them on clean meshes", "0", f"{len(failing_clean)} of {clean['seams']}", not failing_clean)
+    add("clean, edge <= r/10: achieved == designed", ">= 95 %",
+        f"{_pct(fine['achieved_exact']).strip()} % of {fine['seams']}", fine["achieved_exact"] >= 0.95)
+    if continuous:
+        kinds = "; ".join(f"{kind} {sum(r['achieved'] >= 2 for r in continuous if r['case']['mesh'] == kind)} of "
+                          f"{sum(r['case']['mesh'] == kind for r in continuous)}" for kind in MESHES)
+        add("noise 0.01, edge 0.2, r 4: G2-or-better seams reaching G2", ">= 80 %",
+            f"{reaching} of {len(continuous)} ({_pct(reaching / len(continuous)).strip()} %; {kinds})",
+            reaching >= 0.8 * len(continuous))
+    return lines + [""]
 
 
 def _clean(row: dict) -> bool:
@@ -595,21 +634,40 @@ def plot(rows: list[dict], path: Path) -> None:
 # ---------------------------------------------------------------- driver
 
 
-def run(target: int, seed: int, processes: int, noise: float | None = None, progress=None) -> list[dict]:
+def run(target: int, seed: int, processes: int, progress=None) -> list[dict]:
     """Grade randomised cases (case seeds seed * 100000 + i) until ``target`` stations are graded,
     in ``processes`` worker processes (at most 2)."""
     rows, i = [], 0
+    while sum(len(r["stations"]) for r in rows) < target:
+        done = sum(len(r["stations"]) for r in rows)
+        per_case = done / i if i and done else 4 * STATIONS_PER_SEAM
+        batch = max(processes, int(np.ceil(1.1 * (target - done) / per_case)))
+        rows += grade_cases([draw_case(seed * 100000 + j) for j in range(i, i + batch)], processes, progress, rows)
+        i += batch
+    return rows
+
+
+# issue 13's cell: "noise 0.01 mm, edge 0.2 mm, r = 4: curvature-continuous blends reach at least G2"
+CELL = {"radius": 4.0, "edge": 0.2, "noise": 0.01}
+CELL_FAMILIES = ("clothoid", "smoothstep", "variable")
+
+
+def run_cell(seed: int, processes: int, cases: int, progress=None) -> list[dict]:
+    """The acceptance cell: ``cases`` parts of the curvature-continuous families in turn (case seeds
+    seed * 100000 + 90000 + i), other draws as in the random set."""
+    drawn = [draw_case(seed * 100000 + 90000 + i, family=CELL_FAMILIES[i % 3], **CELL) for i in range(cases)]
+    return grade_cases(drawn, processes, progress)
+
+
+def grade_cases(cases: list[dict], processes: int, progress=None, before: list[dict] = ()) -> list[dict]:
+    """run_case over the cases in ``processes`` worker processes; ``progress`` sees the rows so far
+    (after ``before``)."""
+    rows = []
     with _pool(processes) as pool:
-        while sum(len(r["stations"]) for r in rows) < target:
-            done = sum(len(r["stations"]) for r in rows)
-            per_case = done / i if i and done else 4 * STATIONS_PER_SEAM
-            batch = max(processes, int(np.ceil(1.1 * (target - done) / per_case)))
-            cases = [draw_case(seed * 100000 + j, noise) for j in range(i, i + batch)]
-            i += batch
-            for case_rows in pool.imap_unordered(run_case, cases):
-                rows += case_rows
-                if progress:
-                    progress(rows)
+        for case_rows in pool.imap_unordered(run_case, cases):
+            rows += case_rows
+            if progress:
+                progress(list(before) + rows)
     return rows
 
 
@@ -642,15 +700,14 @@ def main() -> None:
     parser.add_argument("--json", type=Path, help="write every seam row (case parameters, truth, stations) here")
     parser.add_argument("--plot", type=Path, help="coverage per order against edge / r, PNG")
     parser.add_argument("--report", type=Path, help="write the tables (markdown) here")
-    parser.add_argument("--case", type=int, help="replay one case seed and print its seams' stations")
+    parser.add_argument("--case", type=int, help="replay one case seed (from the --rows dump if given) and print "
+                        "its seams' stations")
     parser.add_argument("--rows", type=Path, help="tabulate the rows of an earlier --json dump instead of grading")
+    parser.add_argument("--cell", type=int, default=None, help="parts in the acceptance cell (default 30, quick 6)")
     args = parser.parse_args()
     if args.case is not None:
-        for row in run_case(draw_case(args.case)):
-            print(json.dumps({k: v for k, v in row.items() if k != "case"}, default=float))
-        print(json.dumps(draw_case(args.case)))
+        replay(args.case, args.rows)
         return
-    target = 150 if args.quick else args.stations
     t0 = time.perf_counter()
 
     def progress(rows):
@@ -658,18 +715,32 @@ def main() -> None:
         print(f"  {len(rows)} seams, {n} stations, {time.perf_counter() - t0:.0f} s", file=sys.stderr, flush=True)
 
     if args.rows:
-        rows = json.loads(args.rows.read_text())
-        seed = rows[0]["case"]["seed"] // 100000
+        dump = json.loads(args.rows.read_text())
     else:
-        rows, seed = run(target, args.seed, args.processes, progress=progress), args.seed
-    text = report(rows, seed, sum(r.get("seconds", 0.0) for r in rows))
+        cell_cases = args.cell if args.cell is not None else (6 if args.quick else 30)
+        dump = {"seed": args.seed, "random": run(150 if args.quick else args.stations, args.seed, args.processes,
+                                                 progress),
+                "cell": run_cell(args.seed, args.processes, cell_cases, progress)}
+    text = report(dump["random"], dump["cell"], dump["seed"])
     print(text)
     if args.report:
         args.report.write_text(text)
     if args.json:
-        args.json.write_text(json.dumps(rows, indent=1))
+        args.json.write_text(json.dumps(dump, indent=1))
     if args.plot:
-        plot(rows, args.plot)
+        plot(dump["random"], args.plot)
+
+
+def replay(seed: int, rows: Path | None) -> None:
+    """Grade one case again, from its seed or from its parameters in a dump, and print its rows."""
+    if rows is None:
+        case = draw_case(seed)
+    else:
+        dump = json.loads(rows.read_text())
+        case = next(r["case"] for r in dump["random"] + dump["cell"] if r["case"]["seed"] == seed)
+    print(json.dumps(case))
+    for row in run_case(case):
+        print(json.dumps({k: v for k, v in row.items() if k != "case"}))
 
 
 if __name__ == "__main__":

@@ -19,8 +19,9 @@ the true jump:
   about half the time), as the median U per order against edge / radius and noise; and the share of
   stations with a non-zero true jump that do tell it from zero (value - U > 0).
 
-Draws per seam, all from one numpy Generator seeded per case (the case seed replays it: --case SEED):
-radius 2 to 8 mm; convex or concave; extruded, or revolved with the seam at 3 to 10 radii from the axis;
+Draws per case (one part, two to four seams), all from one numpy Generator seeded per case (the case
+seed replays it: --case SEED): the family (corner: a kink of 0.1 to 20 degrees before an arc; arc;
+compound; clothoid; smooth-step; variable); radius 2 to 8 mm; convex or concave; extruded, or revolved with the seam at 3 to 10 radii from the axis;
 edge r/30 to r/5 (log-uniform); mesh "regular" (the builder's grid, rows staggered or not), "jittered"
 (every vertex moved along the surface by up to 0.2 to 0.4 spacings in both directions) or "cad" (a
 CAD mesher's strip: rows 4 to 12 times farther apart along the seam than across it and one to three

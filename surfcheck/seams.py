@@ -295,6 +295,7 @@ def _touching_seam_edges(part: Part, tolerance: float) -> dict[tuple[int, int], 
         return {}
     group = part.face_group[_boundary_face_of_half_edges(part)]
     V = part.vertices
+    vertices_of = {g: np.unique(part.faces[part.face_group == g]) for g in np.unique(group)}
     out: dict[tuple[int, int], list[np.ndarray]] = {}
     for b in np.unique(group):
         theirs = half[group == b]
@@ -305,7 +306,9 @@ def _touching_seam_edges(part: Part, tolerance: float) -> dict[tuple[int, int], 
                 continue
             mine = half[group == a]
             near = tree.query(V[mine.reshape(-1)], distance_upper_bound=tolerance)[0].reshape(-1, 2)
-            touching = np.isfinite(near).all(axis=1)
+            # an edge with a vertex of B's own faces continues B's boundary where the groups are
+            # welded (the cap edge of a fillet beside a plane's), it does not face B across a gap
+            touching = np.isfinite(near).all(axis=1) & ~np.isin(mine, vertices_of[b]).any(axis=1)
             if touching.any():
                 out.setdefault((int(a), int(b)), []).append(mine[touching])
     return {pair: np.vstack(edges) for pair, edges in out.items()}

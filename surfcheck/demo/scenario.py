@@ -1,4 +1,4 @@
-"""The demo scenario: the top shell of the "WT-20", a hand-held water tester of our own invention.
+"""The demo scenario: the top shell of a hand-held water tester of our own invention.
 
 Its cross-section is molded as one profile and extruded along the shell's length. Each joint of the
 profile is made to a known continuity class, so the demo shows every grade:
@@ -12,6 +12,8 @@ profile is made to a known continuity class, so the demo shows every grade:
 The files: the part as OBJ with groups, as binary STL, as PLY with a group property, and a "scanned"
 copy (moved to a scanner's frame, normal noise of 0.01 mm, no groups), and the part with its edge
 fillet and CUT_BACK of each face beside it cut away (a gap the blend demo bridges at K = 1, 2, 3).
+The same shell is also built as a B-rep by the CAD kernel and written as STEP (housing_brep.py); it is
+graded exactly on its faces and, like a CAD export, on the kernel's tessellation.
 Regenerate sample_meshes/ with `python -m surfcheck.demo.scenario sample_meshes`.
 """
 
@@ -26,6 +28,8 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from surfcheck.blend.patch import build_blend, merge_with_patch, prove_blend
+from surfcheck.demo.housing_brep import write_housing_step
+from surfcheck.grading.exact import EXACT, grade_brep
 from surfcheck.grading.run import grade_part
 from surfcheck.io import read_part, save_part, write_atomic
 from surfcheck.part import Part
@@ -60,7 +64,7 @@ GROUP_OF_PIECE = {
     "underside": "underside",
 }
 
-# The class each seam is built to: the highest k with G0..Gk continuity.
+# The class each seam is built to: the highest k with G0..Gk continuity (the mesh and the B-rep shell alike).
 DESIGNED = {
     ("flange", "side-wall"): 0,
     ("side-wall", "edge-fillet"): 1, ("edge-fillet", "top"): 1,
@@ -157,7 +161,9 @@ def write_samples(folder: str | Path) -> dict[str, Path]:
         "housing-scan.stl": scanned_part(),
         "housing-gap.obj": gap_part(nominal),
     }
-    return {name: save_part(part, folder / name) for name, part in files.items()}
+    written = {name: save_part(part, folder / name) for name, part in files.items()}
+    written["housing.step"] = write_housing_step(folder / "housing.step")
+    return written
 
 
 def run_demo(out: str | Path, say=print) -> dict:
@@ -179,6 +185,9 @@ def run_demo(out: str | Path, say=print) -> dict:
         say(f"{name}: {summary['vertices']} vertices, {summary['faces']} triangles, {len(summary['groups'])} groups,"
             f" {len(index.seams)} seams, {len(index.chains)} boundary chains")
         _write_json(out / f"{stem}-inspect.json", summary)
+        if loaded.brep is not None:
+            results["grades"][f"{name} (exact)"] = _grade_exact(loaded, index.seams, out / f"{stem}-exact.json", say)
+            say(f"{name}: the kernel's tessellation, graded as a CAD export")
         if index.seams:
             results["grades"][name] = _grade_and_review(loaded, index.seams, out / f"{stem}-review", say)
         elif name == "housing-scan.stl":  # graded as a scan both ways: through the nominal, and segmented
@@ -235,6 +244,21 @@ def _grade_and_review(loaded, seams: list[Curve], folder: Path, say, tolerance: 
     page = write_report(run, required, folder, parameters=parameters, summary=part_summary(loaded))
     say(f"  review page {page} ({verdict(grades, required)} for {REVIEW_REQUIREMENT})")
     return {"page": str(page), "verdict": verdict(grades, required), "achieved": {g.id: g.achieved for g in grades}}
+
+
+def _grade_exact(loaded, seams: list[Curve], target: Path, say) -> dict:
+    """Grade a STEP sample's seams exactly on its B-rep faces, print one line per seam and write the
+    grade document to ``target``."""
+    profile = load_profile("general")
+    required = parse_requirement(REVIEW_REQUIREMENT)
+    run = grade_brep(loaded.part, loaded.brep, seams, profile)
+    document = run_document(run, required, {"seams": ["all"], "nominal": None, "method": EXACT})
+    say(f"{loaded.part.source}: graded exactly on its B-rep faces")
+    for seam in document["seams"]:
+        say(_seam_line(seam, {}))
+    _write_json(target, document)
+    return {"document": str(target), "verdict": document["verdict"],
+            "achieved": {g.id: g.achieved for g in run.grades}}
 
 
 def _bridge_gap(path: Path, out: Path, say) -> dict:

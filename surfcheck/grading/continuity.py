@@ -188,9 +188,9 @@ def fit_sides(section: Section, search: bool = False) -> StationSides:
         end_b = end_a
     else:
         data_a, data_b, end_a, end_b = section.side_a, section.side_b, section.end_a, section.end_b
-    (h_a, h_b), (floor_a, floor_b) = section.scales, section.floors
-    return StationSides(shift, data_a, data_b, fit_side(data_a, end_a, -1.0, h_a, floor_a),
-                        fit_side(data_b, end_b, 1.0, h_b, floor_b))
+    (h_a, h_b), (floor_a, floor_b), (end_a_floor, end_b_floor) = section.scales, section.floors, section.end_floors
+    return StationSides(shift, data_a, data_b, fit_side(data_a, end_a, -1.0, h_a, floor_a, end_a_floor),
+                        fit_side(data_b, end_b, 1.0, h_b, floor_b, end_b_floor))
 
 
 def decide_orders(profile: ToleranceProfile, gap: tuple[float, float], angle: tuple[float, float],

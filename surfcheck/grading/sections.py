@@ -48,7 +48,8 @@ class Section:
     ``end_a``/``end_b`` where each side's data meets the seam (the same point on a welded seam).
     ``edge`` is the typical edge length near the seam, ``scales`` each side's scale for its one-sided
     fit (see side_spacings), ``floors`` the least standard deviation of its points (non-zero where a
-    sparse side was read from its surface, surface_cut.py) and ``deflection`` the largest chordal
+    sparse side was read from its surface, surface_cut.py), ``end_floors`` the least standard
+    uncertainty of each side's four quantities at the seam (SurfaceCut.end_floor) and ``deflection`` the largest chordal
     deflection of the polygons such sides were read from (None where no side was).
     """
 
@@ -69,6 +70,7 @@ class Section:
     scales: tuple[float, float]
     floors: tuple[float, float] = (0.0, 0.0)
     deflection: float | None = None
+    end_floors: tuple[tuple[float, ...], tuple[float, ...]] = ((0.0,) * 4, (0.0,) * 4)
 
     def to_world(self, xy: np.ndarray) -> np.ndarray:
         """3D positions of section coordinates (n, 2) or (2,)."""
@@ -195,12 +197,12 @@ def cut_sections(
             # small loop the far side projects onto the station's tangent line, too)
             inside &= nearest_seam.offset(V[near], s) <= width + h
             mapped.append((near[inside], coords[inside]))
-        scale_of, floor_of, deflection = list(scales), [0.0, 0.0], None
+        scale_of, floor_of, end_floor_of, deflection = list(scales), [0.0, 0.0], [(0.0,) * 4] * 2, None
         for side, faces in enumerate(group_faces):
             cut = _sparse_side(part, faces, frame, *mapped[side], h, radius)
             if cut is not None:
                 mapped[side] = (cut.vertices, cut.points)
-                scale_of[side], floor_of[side] = cut.scale, cut.floor
+                scale_of[side], floor_of[side], end_floor_of[side] = cut.scale, cut.floor, cut.end_floor
                 deflection = max(deflection or 0.0, cut.deflection)
         (near_a, rel_a), (near_b, rel_b) = mapped
         if len(near_a) == 0 or len(near_b) == 0:
@@ -228,7 +230,7 @@ def cut_sections(
         sections.append(Section(index, float(s), frame.origin, frame.tangent, normal, cross,
                                 xy_a[keep_a], xy_b[keep_b], near_a[keep_a], near_b[keep_b],
                                 end_a, end_b, welded, h, (scale_of[0], scale_of[1]),
-                                (floor_of[0], floor_of[1]), deflection))
+                                (floor_of[0], floor_of[1]), deflection, tuple(end_floor_of)))
     return sections
 
 

@@ -46,9 +46,13 @@ NOISE_POINTS = 40  # points in the window that gives a side's noise level
 MAX_SLOPE = 0.3  # heights over a side's own reference are flatter than this at the seam (17 deg)
 MAX_TILT = 1.0  # ... and than this (45 deg) across the window
 ICI_GAMMA = 3.0  # half-width of the window rule's confidence intervals, in std devs
+LADDER_DEGREES = 2  # higher degrees whose differences bound a fit's bias
+LADDER_SIGNIFICANCE = 3.0  # a higher degree's difference counts as bias beyond this many std devs of it (as ICI_GAMMA)
 RATE_SIGNIFICANCE = 3.0  # the reference takes the curvature rate when it exceeds this many std devs
 REFERENCE_ITERATIONS = 4
 REFERENCE_WINDOW_EDGES = 10.0  # window of the first cubic that gives a side's tangent
+REFERENCE_TURN = 0.5  # radians the first cubic's curve may turn over its window (common practice, no published source)
+REFERENCE_PASSES = 3
 ROUNDING = 1e-9  # relative resolution of the whole chain (transforms, fits) in double precision
 OFFSET, HEADING, CURVATURE, RATE = range(4)  # the quantities' places in SideEstimate's arrays
 _STEP = 1e-30  # complex step
@@ -195,22 +199,33 @@ def _rotate(d: np.ndarray, angle: float) -> np.ndarray:
     return np.array([c * d[0] - s * d[1], s * d[0] + c * d[1]])
 
 
-def initial_reference(points: np.ndarray, end: np.ndarray, sign: float, h: float) -> Reference:
+def initial_reference(points: np.ndarray, end: np.ndarray, sign: float, h: float,
+                      passes: int = REFERENCE_PASSES) -> Reference:
     """A first tangent (A to B) and curvature at the seam: direction from the centroid of the data
     near the seam, refined by the slope of a cubic over REFERENCE_WINDOW_EDGES edges, whose
-    curvature it also takes."""
+    curvature it also takes. Where that cubic's curve turns by more than REFERENCE_TURN over its
+    window or leaves the tangent steeply (a tight blend seen through a section frame whose normal
+    was averaged over the blend), the window shrinks to turn by REFERENCE_TURN and the cubic is
+    fitted again about the refined tangent (a fixed-point step, at most ``passes``)."""
     rel = points - end
     dist = np.hypot(*rel.T)
     near = dist <= max(6.0 * h, np.sort(dist)[min(8, len(dist) - 1)])
     c = rel[near].mean(axis=0)
-    d = sign * c / np.linalg.norm(c)
-    u, v = rel @ d, rel @ _left(d)
+    ref = Reference(sign * c / np.linalg.norm(c))
     window = min(REFERENCE_WINDOW_EDGES * h, float(dist.max()))
-    fits = polynomial_fits(u, v, window, 3, inside=sign * u >= -0.5 * h)
-    if not fits.ok[0, 3]:
-        return Reference(d)
-    a1, a2 = fits.coef[0, 3, 1], fits.coef[0, 3, 2]
-    return Reference(_rotate(d, float(np.arctan(a1))), float(2.0 * a2 / (1.0 + a1 * a1) ** 1.5))
+    for _ in range(passes):
+        d = ref.direction
+        u, v = rel @ d, rel @ _left(d)
+        fits = polynomial_fits(u, v, window, 3, inside=sign * u >= -0.5 * h)
+        if not fits.ok[0, 3]:
+            return ref
+        a1, a2 = fits.coef[0, 3, 1], fits.coef[0, 3, 2]
+        ref = Reference(_rotate(d, float(np.arctan(a1))), float(2.0 * a2 / (1.0 + a1 * a1) ** 1.5))
+        turn = abs(ref.k0) * window
+        if turn <= REFERENCE_TURN and abs(a1) <= MAX_SLOPE:
+            return ref
+        window = max(window * min(1.0, REFERENCE_TURN / max(turn, 1e-300)), MIN_WINDOW_EDGES * h)
+    return ref
 
 
 def heights(rel: np.ndarray, ref: Reference) -> tuple[np.ndarray, np.ndarray]:
@@ -291,11 +306,14 @@ class _Side:
         return max(float(np.sqrt(f.sigma2[0, -1])) if f.ok[0, -1] else 0.0, self.floor)
 
 
-def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float, floor: float = 0.0) -> SideEstimate:
+def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float, floor: float = 0.0,
+             end_floor=(0.0, 0.0, 0.0, 0.0)) -> SideEstimate:
     """One-sided estimate of a side at its seam point ``end``: ``sign`` -1 for side A (its data lies
     before the seam), +1 for side B; ``h`` the typical edge length; ``floor`` the least standard
     deviation of a point about the section curve (for data interpolated between mesh points, which
-    shows no residual of its own). See the module docstring."""
+    shows no residual of its own); ``end_floor`` a standard uncertainty per quantity (offset,
+    heading, curvature, rate) that the data cannot show, added in quadrature (JCGM 100:2008, 5.1.2),
+    e.g. an interpolated side's unobserved first interval (surface_cut.py). See the module docstring."""
     end = np.asarray(end, dtype=float)
     if len(points) < NOISE_POINTS // 4:
         return _unresolved(end, len(points))
@@ -317,7 +335,7 @@ def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float, floor: 
             break
     est = _with_reference_noise(est, points, end, sign, h, ref)
     rounding = (ROUNDING * np.array([h, 1.0, 1.0 / h, 1.0 / h**2])) ** 2
-    return replace(est, variances=np.maximum(est.variances, rounding))
+    return replace(est, variances=np.maximum(est.variances + np.square(end_floor), rounding))
 
 
 def _reference_from(est: SideEstimate, reach: float) -> Reference:
@@ -348,8 +366,10 @@ def _estimate(side: _Side, count: int, end: np.ndarray) -> SideEstimate:
 
 def _select(vals: np.ndarray, vars_: np.ndarray) -> tuple[np.ndarray, tuple[np.ndarray, np.ndarray]]:
     """Per quantity, the (window, degree) with the smallest variance + bias^2 among the windows the
-    ICI rule admits, and that sum (see the module docstring). vals, vars_: (windows, degrees, 4)."""
+    ICI rule admits (bias from the next degree), and its variance + the ladder's bias^2 (from every
+    higher degree; see the module docstring). vals, vars_: (windows, degrees, 4)."""
     score = np.full(vals.shape, np.inf)
+    stated = np.full(vals.shape, np.inf)
     for deg in DEGREES:
         here, v = vals[:, deg], vars_[:, deg]
         valid = np.isfinite(here) & np.isfinite(v) & np.isfinite(vals[:, deg + 1])
@@ -359,12 +379,16 @@ def _select(vals: np.ndarray, vars_: np.ndarray) -> tuple[np.ndarray, tuple[np.n
         admitted = np.logical_and.accumulate(lower <= upper, axis=0) & valid
         admitted &= deg >= np.array(MIN_DEGREE)[None, :]
         with np.errstate(invalid="ignore"):
-            bias2 = (vals[:, deg + 1] - here) ** 2 - np.maximum(vars_[:, deg + 1] - v, 0.0)
-        score[:, deg] = np.where(admitted, v + np.maximum(bias2, 0.0), np.inf)
+            square = (vals[:, deg + 1:deg + 1 + LADDER_DEGREES] - here[:, None]) ** 2
+            spread = np.maximum(vars_[:, deg + 1:deg + 1 + LADDER_DEGREES] - v[:, None], 0.0)
+            embedded = np.maximum(square[:, 0] - spread[:, 0], 0.0)
+            ladder = np.where(np.isfinite(square), square - LADDER_SIGNIFICANCE**2 * spread, -np.inf).max(axis=1)
+        score[:, deg] = np.where(admitted, v + embedded, np.inf)
+        stated[:, deg] = np.where(admitted, v + np.maximum(embedded, ladder), np.inf)
     flat = score.reshape(-1, 4)
     k = np.argmin(flat, axis=0)
     win, deg = np.unravel_index(k, vals.shape[:2])
-    return flat[k, np.arange(4)], (win, deg)
+    return stated.reshape(-1, 4)[k, np.arange(4)], (win, deg)
 
 
 def _with_reference_noise(est: SideEstimate, points, end, sign, h, ref: Reference) -> SideEstimate:

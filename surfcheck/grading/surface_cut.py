@@ -48,6 +48,8 @@ class SurfaceCut:
     scale: float
     floor: float
     deflection: float  # the largest sagitta of the polygon the side was read from (chordal deflection)
+    end_floor: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)  # least standard uncertainty of
+    # offset, heading, curvature and rate at the seam (an interpolated side's unobserved first interval)
 
 
 def cut_side(part: Part, faces: np.ndarray, origin: np.ndarray, plane_normal: np.ndarray,
@@ -164,7 +166,36 @@ def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np
     chords = np.stack([nodes[:-1], nodes[1:]], axis=1)
     consecutive = np.stack([np.arange(len(nodes) - 1), np.arange(1, len(nodes))], axis=1)
     return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * float(chord[-1] / (len(nodes) - 1)),
-                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, consecutive))
+                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, consecutive),
+                      _end_floor(spline, chord, axis))
+
+
+def _end_floor(spline, chord: np.ndarray, axis: np.ndarray) -> tuple[float, float, float, float]:
+    """The interpolation's uncertainty of curvature and rate at the seam end (chord 0).
+
+    Between the seam and the first node the mesh holds no vertex, and a cubic spline's curvature is
+    piecewise linear, so at the end it extrapolates the curvature of the interior linearly: a
+    curvature that builds up as s^2 from the seam (a G3 blend) reads as a jump, one that builds up
+    linearly (a G2 blend) reads right, and the nodes cannot tell the two apart. The end value is
+    therefore known only to within the change of the curvature over that first interval (the
+    remainder of the zeroth-order extrapolation, dk = |kappa(t1) - kappa(0)|), the rate, the
+    curvature's slope over that interval, to within dk / t1. Both vanish where the curvature is
+    constant along the section (an arc), so a fillet still grades exactly. The heading gets no such
+    term: the nodes beyond the first hold it (docs/continuity.md, section 8)."""
+    kappa, _ = _curvature_and_rate(spline, chord[:2], axis)
+    change = float(abs(kappa[1] - kappa[0]))
+    return (0.0, 0.0, change, change / float(chord[1]))
+
+
+def _curvature_and_rate(spline, t: np.ndarray, axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Signed curvature (about ``axis``) of a space curve and its derivative per unit arc length, at
+    parameters ``t`` (the Frenet formulas for a curve of any parametrisation)."""
+    d1, d2, d3 = spline(t, 1), spline(t, 2), spline(t, 3)
+    speed = np.linalg.norm(d1, axis=1)
+    c12, c13 = np.cross(d1, d2) @ axis, np.cross(d1, d3) @ axis
+    kappa = c12 / speed**3
+    rate = (c13 * speed**2 - 3.0 * c12 * np.einsum("ij,ij->i", d1, d2)) / speed**6
+    return kappa, rate
 
 
 def _zigzags(nodes: np.ndarray, axis: np.ndarray) -> bool:

@@ -41,8 +41,9 @@ def find_transition(section: Section) -> float:
     x = xy[:, 0]
     if len(x) < 24:
         return 0.0
-    heights = [sidefit.heights(xy, sidefit.initial_reference(xy[x <= 0.0], np.zeros(2), -1.0, h)),
-               sidefit.heights(xy, sidefit.initial_reference(xy[x >= 0.0], np.zeros(2), 1.0, h))]
+    # each side's overall direction (one pass): a corner inside a side's data must not turn it
+    heights = [sidefit.heights(xy, sidefit.initial_reference(xy[x <= 0.0], np.zeros(2), -1.0, h, passes=1)),
+               sidefit.heights(xy, sidefit.initial_reference(xy[x >= 0.0], np.zeros(2), 1.0, h, passes=1))]
 
     def rss(delta: float) -> float:
         total = 0.0

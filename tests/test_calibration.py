@@ -141,16 +141,16 @@ def clean_rows():
     return [row for seed in SMALL_SET for row in C.run_case(C.draw_case(seed, noise=0.0))]
 
 
-@pytest.mark.xfail(strict=True, reason="measured on main 788e862: coverage G0 100 %, G1 79 %, G2 100 %, G3 71 % "
-                   "of 58 clean stations; the CAD-like smooth-step (case 3, r/7) reads G3 jumps 11 U off the true 0")
+@pytest.mark.xfail(strict=True, reason="measured on main 8bb7bae: coverage G0 100 %, G1 79 %, G2 100 %, G3 100 % "
+                   "of 58 clean stations; G1 of the CAD-like smooth-step (case 3, r/7) reads up to 2.3 U off the "
+                   "true 0 at all 12 stations of its ramp-arc seams (was G3 71 % on 788e862)")
 def test_coverage_on_clean_seams(clean_rows):
     coverage = [order["coverage"] for order in C.summary(clean_rows)["orders"]]
     assert min(coverage) >= 0.95, coverage  # issue 13 acceptance: at least 95 % for every order
 
 
-@pytest.mark.xfail(strict=True, reason="measured on main 788e862: 2 of 10 clean seams fail an order they meet by "
-                   "construction (G3 of the CAD-like smooth-step ramp's seams with its arc)")
 def test_no_false_fails_on_clean_seams(clean_rows):
+    # on main 788e862 2 of the 10 failed G3 (the CAD-like smooth-step's seams with its arc); none since 8bb7bae
     failing = [(r["case"]["seed"], r["seam"]) for r in clean_rows
                if "error" not in r and any(C.seam_outcomes(r, k)["false_fail"] for k in range(4))]
     assert failing == []  # issue 13 acceptance: no false fails on clean meshes

@@ -35,6 +35,7 @@ r = 4, curvature-continuous families) is graded beside the random set.
 
     PYTHONPATH=. python benchmarks/calibration.py [--quick] [--stations N] [--seed S] [--json FILE]
         [--plot FILE] [--report FILE] [--processes 1|2] [--cell PARTS] [--rows FILE] [--case SEED]
+        [--compare DUMP DUMP ...]
 """
 
 from __future__ import annotations
@@ -773,9 +774,14 @@ def main() -> None:
                         "its seams' stations")
     parser.add_argument("--rows", type=Path, help="tabulate the rows of an earlier --json dump instead of grading")
     parser.add_argument("--cell", type=int, default=None, help="parts in the acceptance cell (default 30, quick 6)")
+    parser.add_argument("--compare", type=Path, nargs="+", help="dumps (of one seed, e.g. before and after an "
+                        "estimator change): issue 13's acceptance table of each over the seams they share")
     args = parser.parse_args()
     if args.case is not None:
         replay(args.case, args.rows)
+        return
+    if args.compare:
+        print(compare(args.compare))
         return
     t0 = time.perf_counter()
 
@@ -798,6 +804,22 @@ def main() -> None:
         args.json.write_text(json.dumps(dump, indent=1))
     if args.plot:
         plot(dump["random"], args.plot)
+
+
+def compare(paths: list[Path]) -> str:
+    """Issue 13's acceptance table of each dump, over the seams (case seed and seam) all of them hold."""
+    dumps = [json.loads(path.read_text()) for path in paths]
+
+    def key(row):
+        return row["case"]["seed"], row["seam"]
+
+    shared = set.intersection(*({key(r) for r in d["random"] + d["cell"]} for d in dumps))
+    lines = []
+    for path, dump in zip(paths, dumps):
+        rows, cell = ([r for r in dump[part] if key(r) in shared] for part in ("random", "cell"))
+        lines += [f"{path.name}: {len(rows)} seams, {sum(len(r['stations']) for r in rows)} stations, "
+                  f"{len(cell)} seams of the cell", ""] + acceptance(rows, cell)
+    return "\n".join(lines)
 
 
 def replay(seed: int, rows: Path | None) -> None:

@@ -60,6 +60,7 @@ from surfcheck.blend.steps import hermite_polynomial  # noqa: E402
 from surfcheck.demo import shapes as S  # noqa: E402
 from surfcheck.errors import InputError  # noqa: E402
 from surfcheck.grading.run import grade_seam  # noqa: E402
+from surfcheck.grading.sections import STRIP_EDGES  # noqa: E402
 from surfcheck.grading.tolerances import GENERAL, SCAN, ToleranceProfile  # noqa: E402
 from tests.fixtures.synthetic import part_and_seams  # noqa: E402
 
@@ -68,7 +69,6 @@ FAMILIES = ("corner", "arc", "compound", "clothoid", "smoothstep", "variable")
 MESHES = ("regular", "jittered", "cad")
 COVERAGE_FACTOR = 2.0  # k of U = k u, as the profiles state it (GUM section 6)
 STATIONS_PER_SEAM = 6  # the seam is made this many default station spacings (two strips) long
-STRIP_EDGES = 10.0  # the grader's default strip half-width in edges (sections.STRIP_EDGES)
 
 
 # ---------------------------------------------------------------- the draws
@@ -730,35 +730,23 @@ def run_cell(seed: int, processes: int, cases: int, progress=None) -> list[dict]
 
 
 def grade_cases(cases: list[dict], processes: int, progress=None, before: list[dict] = ()) -> list[dict]:
-    """run_case over the cases in ``processes`` worker processes; ``progress`` sees the rows so far
-    (after ``before``)."""
-    rows = []
-    with _pool(processes) as pool:
-        for case_rows in pool.imap_unordered(run_case, cases):
-            rows += case_rows
-            if progress:
-                progress(list(before) + rows)
-    return rows
-
-
-class _Serial:
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        return False
-
-    @staticmethod
-    def imap_unordered(f, items):
-        return map(f, items)
-
-
-def _pool(processes: int):
+    """run_case over the cases, in ``processes`` worker processes (at most 2); ``progress`` sees the
+    rows so far (after ``before``)."""
     if processes <= 1:
-        return _Serial()
+        return _collect(map(run_case, cases), progress, before)
     import multiprocessing
 
-    return multiprocessing.get_context("fork").Pool(min(2, processes))
+    with multiprocessing.get_context("fork").Pool(min(2, processes)) as pool:
+        return _collect(pool.imap_unordered(run_case, cases), progress, before)
+
+
+def _collect(results, progress, before) -> list[dict]:
+    rows = []
+    for case_rows in results:
+        rows += case_rows
+        if progress:
+            progress(list(before) + rows)
+    return rows
 
 
 def main() -> None:

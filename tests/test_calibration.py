@@ -26,7 +26,8 @@ def test_truth_of_an_arc_after_a_line_is_a_curvature_jump_of_one_over_r():
 
 
 def test_truth_of_a_clothoid_is_a_rate_jump_of_one_over_r_l():
-    # an Euler spiral's curvature is linear in arc length: rate (k1 - k0) / L
+    # an Euler spiral's curvature is linear in arc length, so its rate is (k1 - k0) / L (its definition;
+    # Levien 2008, The Euler spiral: a mathematical history, UCB/EECS-2008-111)
     truth = C.seam_truth(S.Profile((S.line(5, "a"), S.clothoid(3.0, 0.0, 0.5, "b"))), 0, GENERAL)
     assert truth.jumps[2] == 0.0
     assert truth.jumps[3] == pytest.approx(0.5 / 3.0, rel=1e-15)
@@ -35,7 +36,8 @@ def test_truth_of_a_clothoid_is_a_rate_jump_of_one_over_r_l():
 
 @pytest.mark.parametrize("order", [1, 2])
 def test_truth_of_a_smooth_step_ramp_has_no_rate_jump(order):
-    # the Hermite smoothstep of order k >= 1 has phi'(0) = phi'(1) = 0 (C^k: its first k derivatives vanish at the ends)
+    # the Hermite smoothstep of order k >= 1 has phi'(0) = phi'(1) = 0: its first k derivatives vanish at
+    # both ends (the Hermite interpolation conditions that define it; from memory, no single source)
     truth = C.seam_truth(S.Profile((S.ramp(3.0, 0.0, 0.5, "a", order=order), S.arc(2.0, "b", angle_deg=30))), 0,
                          GENERAL)
     assert truth.jumps[2] == pytest.approx(0.0, abs=1e-15)

@@ -143,9 +143,6 @@ def clean_rows():
     return [row for seed in SMALL_SET for row in C.run_case(C.draw_case(seed, noise=0.0))]
 
 
-@pytest.mark.xfail(strict=True, reason="measured on main 8bb7bae: coverage G0 100 %, G1 79 %, G2 100 %, G3 100 % "
-                   "of 58 clean stations; G1 of the CAD-like smooth-step (case 3, r/7) reads up to 2.3 U off the "
-                   "true 0 at all 12 stations of its ramp-arc seams (was G3 71 % on 788e862)")
 def test_coverage_on_clean_seams(clean_rows):
     coverage = [order["coverage"] for order in C.summary(clean_rows)["orders"]]
     assert min(coverage) >= 0.95, coverage  # issue 13 acceptance: at least 95 % for every order

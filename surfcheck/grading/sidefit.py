@@ -346,10 +346,12 @@ def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float, floor: 
             break
     est = _with_reference_noise(est, points, end, sign, h, ref)
     rounding = (ROUNDING * np.array([h, 1.0, 1.0 / h, 1.0 / h**2])) ** 2
-    # the a-posteriori error of the fixed-point iteration (its last step): where the references cycle
-    # between two fits instead of converging, the estimate is known only to within their difference
+    # the a-posteriori error of the fixed-point iteration: where the references cycle between two fits
+    # instead of converging, the fixed point lies between them (a 2-cycle of a map that contracts near
+    # it straddles it), so the estimate is off by up to half their difference; a converged iteration's
+    # last step is below a tenth of u and adds nothing that matters
     budget = est.budget.copy()
-    budget[BUDGET.index("iteration")] = np.square(step)
+    budget[BUDGET.index("iteration")] = np.square(0.5 * step)
     budget[BUDGET.index("interpolation")] = np.square(end_floor)
     return replace(est, variances=np.maximum(est.variances + budget[3:].sum(axis=0), rounding), budget=budget)
 

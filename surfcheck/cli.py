@@ -250,8 +250,8 @@ def blend(
     chain_to: str = typer.Option(..., "--to", help="Boundary chain id on the (second) part."),
     order: int = typer.Option(..., "--order", help="Contact order K to reach on both seams: 1, 2 or 3."),
     step: str = typer.Option("hermite", "--step", help="Smooth step: hermite (default), rational, exp or linear."),
-    span: Optional[float] = typer.Option(None, "--span", help="How far each side's extension reaches, in part units."),
-    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default: from the chains and the span)."),
+    reach: Optional[float] = typer.Option(None, "--reach", help="How far each side's extension reaches, in part units."),
+    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default: from the chains and the reach)."),
     out_patch: Optional[Path] = typer.Option(None, "--out", help="Write the patch alone (.obj, .ply, .stl)."),
     merged_file: Optional[Path] = typer.Option(None, "--merged", help="Write part(s) + patch, welded, as one grouped file."),
     tolerance: str = TOLERANCE_OPT,
@@ -273,7 +273,7 @@ def blend(
     part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units, deflection=deflection).part
     chain_a = _one_chain(SeamIndex(part_a), chain_from, parts[0])
     chain_b = _one_chain(SeamIndex(part_b), chain_to, parts[-1])
-    result = build_blend(part_a, chain_a, part_b, chain_b, order, step, span, resolution)
+    result = build_blend(part_a, chain_a, part_b, chain_b, order, step, reach, resolution)
     merged = merge_with_patch(part_a, result, None if len(parts) == 1 else part_b)
     if out_patch:
         save_part(patch_part(result, part_a.units, str(out_patch)), out_patch)
@@ -281,7 +281,7 @@ def blend(
         save_part(merged.part, merged_file)
     grades = prove_blend(merged, profile)
     document = grade_document(merged.part, grades, profile, order,
-                              {"from": chain_from, "to": chain_to, "order": order, "step": step, "span": span,
+                              {"from": chain_from, "to": chain_to, "order": order, "step": step, "reach": reach,
                                "resolution": result.spacing, "row_spacing": result.row_spacing,
                                "problems": list(result.problems)})
     if as_json:

@@ -92,10 +92,12 @@ def without_boundary_band(part: Part, field: VertexField) -> VertexField:
     return replace(field, values=np.where(band, np.nan, field.values))
 
 
-def _grey(field: VertexField) -> str:
+def _grey(field: VertexField, units: str) -> str:
+    """The caption's note on the light grey "no value" band, its width (the fits' radius) a length in
+    the part's ``units``."""
     if not np.isnan(field.values).any():
         return ""
-    return (f" Grey: no value (within the fits' radius, {field.radius:.2g} {field.unit.split('/')[-1]}, of an open"
+    return (f" Light grey: no value (within the fits' radius, {field.radius:.2g} {units}, of an open"
             " boundary).")
 
 
@@ -195,7 +197,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
                          title=f"{f.description}: {name}")
             part_pictures.append(Picture(file, f"{f.description} [{f.unit}] over the whole part, from the side"
                                          " that shows most of it and from the other side; seams coloured by"
-                                         f" their per-station result up to {'/'.join(shown)}.{_grey(f)}",
+                                         f" their per-station result up to {'/'.join(shown)}.{_grey(f, part.units)}",
                                          f"{quantity} heatmap of the whole part"))
             steps.advance(quantity)
         for seam, overlay in zip(graded, overlays):
@@ -216,7 +218,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
             pictures.append(Picture(f"{stem}-map.png", f"{f.description} [{f.unit}] around {grade.id}, facing it;"
                                     f" close-up at the governing station of {ORDERS[order]}. Tube: the seam; balls: the stations'"
                                     " seam points as graded (after the transition search); both coloured by the"
-                                    f" result up to {ORDERS[order]} per station.{_grey(f)}",
+                                    f" result up to {ORDERS[order]} per station.{_grey(f, part.units)}",
                                     f"{grade.id} over the {SEAM_QUANTITY} heatmap"))
             steps.advance(f"{grade.id} picture")
             plot_along_seam(grade, out / f"{stem}-along.png", coverage=profile.coverage)

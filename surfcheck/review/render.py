@@ -1,7 +1,7 @@
 """Pictures of per-vertex fields: PyVista renders the views off-screen, matplotlib lays them out.
 
 Works without a display or GPU (VTK falls back to software rendering). Each picture holds one or more
-views of the part coloured by the field, seams drawn as tubes coloured by their per-station result, one
+views of the part coloured by the field, seams drawn as dark-outlined tubes coloured by their per-station result, one
 colour bar titled with the quantity and its unit whose limits are robust percentiles of the field
 (stated under the bar; arrows on the bar where values are clipped); signed fields get a diverging map
 centred on zero.
@@ -24,8 +24,11 @@ import numpy as np
 from surfcheck.grading.status import Status
 from surfcheck.io import write_atomic
 
-STATUS_COLOURS = {Status.OK: "#1f9e89", Status.FAIL: "#d7263d", Status.NOT_RESOLVED: "#9aa0a6"}
-STATUS_TEXT = {Status.OK: "#137a69", Status.FAIL: "#b0172c", Status.NOT_RESOLVED: "#5f6368"}  # darker, for text
+STATUS_COLOURS = {Status.OK: "#1f9e89", Status.FAIL: "#d7263d", Status.NOT_RESOLVED: "#4b4f56"}
+STATUS_TEXT = {Status.OK: "#137a69", Status.FAIL: "#b0172c", Status.NOT_RESOLVED: "#3c4043"}  # darker, for text
+NO_VALUE_COLOUR = "#e4e4e4"  # the field's "no value": far lighter than the "not resolved" seam colour
+OUTLINE_COLOUR = "#111111"  # every seam tube and station ball is outlined, so no field colour hides it
+OUTLINE_RATIO = 2.0  # radius of the outline over that of the tube or ball
 PERCENTILES = (2.0, 98.0)  # colour limits; common practice, no published source
 TILT_DEG = 30.0  # views are tilted this far out of the best-facing direction; common practice
 CANDIDATE_DIRECTIONS = 400
@@ -183,9 +186,20 @@ def _surface(pv, V: np.ndarray, F: np.ndarray):
     return pv.PolyData(np.asarray(V, dtype=float), cells)
 
 
-def _add_seam(pv, plotter, seam: SeamOverlay, radius: float) -> list:
-    """Each run of equal status along the seam as one tube of that status's colour; station markers
-    as balls. Returns the actors added."""
+def _outlined(pv, plotter, mesh_at, colour: str, radius: float, towards_eye: np.ndarray) -> list:
+    """A tube or ball (``mesh_at(radius, shift)``) drawn unlit in ``colour`` over a dark one
+    OUTLINE_RATIO times wider: the coloured one is moved towards the eye by a few radii, which in a
+    parallel projection leaves its place in the picture unchanged and keeps it in front of its
+    outline. Returns both actors."""
+    return [plotter.add_mesh(mesh_at(OUTLINE_RATIO * radius, np.zeros(3)), color=OUTLINE_COLOUR, lighting=False),
+            plotter.add_mesh(mesh_at(radius, 3.0 * OUTLINE_RATIO * radius * towards_eye), color=colour,
+                             lighting=False)]
+
+
+def _add_seam(pv, plotter, seam: SeamOverlay, radius: float, towards_eye: np.ndarray) -> list:
+    """Each run of equal status along the seam as one outlined tube of that status's colour; station
+    markers as outlined balls (``towards_eye``: unit vector from the part to the camera). Returns the
+    actors added."""
     actors = []
     status = list(seam.status)
     start = 0
@@ -193,13 +207,18 @@ def _add_seam(pv, plotter, seam: SeamOverlay, radius: float) -> list:
         if i == len(status) or status[i] != status[start]:
             points = seam.points[start:min(i + 1, len(status))]
             if len(points) >= 2:
-                tube = pv.lines_from_points(points).tube(radius=radius, n_sides=16)
-                actors.append(plotter.add_mesh(tube, color=STATUS_COLOURS.get(status[start], "#000000"), lighting=False))
+                def tube(r, shift, points=points):
+                    return pv.lines_from_points(points + shift).tube(radius=r, n_sides=16)
+
+                actors += _outlined(pv, plotter, tube, STATUS_COLOURS.get(status[start], "#000000"), radius,
+                                    towards_eye)
             start = i
     if seam.markers is not None:
         for point, state in zip(np.atleast_2d(seam.markers), seam.marker_status):
-            ball = pv.Sphere(radius=2.5 * radius, center=point, theta_resolution=16, phi_resolution=12)
-            actors.append(plotter.add_mesh(ball, color=STATUS_COLOURS.get(state, "#000000"), lighting=False))
+            def ball(r, shift, point=point):
+                return pv.Sphere(radius=r, center=point + shift, theta_resolution=16, phi_resolution=12)
+
+            actors += _outlined(pv, plotter, ball, STATUS_COLOURS.get(state, "#000000"), 2.5 * radius, towards_eye)
     return actors
 
 
@@ -234,7 +253,7 @@ def render_views(V: np.ndarray, F: np.ndarray, values: np.ndarray, views: list[V
     light = pv.Light(light_type="headlight", intensity=1.0)
     light.ambient_color = "white"
     plotter.add_light(light)
-    plotter.add_mesh(surface, scalars="field", cmap=cmap, clim=limits, nan_color="#c8c8c8", show_scalar_bar=False,
+    plotter.add_mesh(surface, scalars="field", cmap=cmap, clim=limits, nan_color=NO_VALUE_COLOUR, show_scalar_bar=False,
                      smooth_shading=True, ambient=AMBIENT, diffuse=1.0 - AMBIENT, specular=0.0)
     diagonal = float(np.linalg.norm(np.ptp(V, axis=0)))
     plotter.enable_parallel_projection()
@@ -242,7 +261,7 @@ def render_views(V: np.ndarray, F: np.ndarray, values: np.ndarray, views: list[V
     for view in views:
         position, half = _camera(view, V, pixels[0] / pixels[1])
         pixel = 2.0 * half / pixels[1]  # world length of one pixel
-        actors = [a for seam in seams for a in _add_seam(pv, plotter, seam, TUBE_PIXELS * pixel)]
+        actors = [a for seam in seams for a in _add_seam(pv, plotter, seam, TUBE_PIXELS * pixel, view.direction)]
         plotter.camera_position = position
         plotter.camera.parallel_scale = half
         plotter.camera.clipping_range = (1e-3 * diagonal, 5.0 * diagonal)
@@ -302,7 +321,9 @@ def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | o
         stated += "; grey: no value"
     fig.text(pad / width, 8 / height, stated, fontsize=11, ha="left", va="bottom")
     if seams:
-        handles = [Patch(color=c, label=f"seam {s}") for s, c in STATUS_COLOURS.items()]
+        handles = [Patch(facecolor=c, edgecolor=OUTLINE_COLOUR, label=f"seam {s}") for s, c in STATUS_COLOURS.items()]
+        if finite.size < values.size:
+            handles.append(Patch(facecolor=NO_VALUE_COLOUR, edgecolor="#9aa0a6", label="field: no value"))
         fig.legend(handles=handles, loc="lower right", bbox_to_anchor=(1.0 - pad / width, 30 / height),
                    fontsize=12, frameon=False, title="result per station", title_fontsize=12)
     return save_figure(fig, path, DPI)

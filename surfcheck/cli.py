@@ -405,12 +405,14 @@ def _progress(items: list, what: str, quiet: bool):
 @app.command("map")
 def map_field(
     part: Path = PART_ARG,
-    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean, gaussian, jump or tangent-jump."),
-    out_file: Path = typer.Option(..., "--out", help="Output: .ply (vertex property), .csv or .png (heatmap)."),
+    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean, gaussian, jump, tangent-jump, isophote or reflection."),
+    out_file: Path = typer.Option(..., "--out", help="Output: .ply (vertex property), .csv or .png (heatmap; stripes for isophote and reflection)."),
+    light: Optional[str] = typer.Option(None, "--light", help="DX,DY,DZ: the light direction (isophote) or the light lines' direction (reflection); default from the part."),
+    stripes: Optional[float] = typer.Option(None, "--stripes", help="Light-line spacing, part units (reflection; default the part's diagonal / 24)."),
     units: str = UNITS_OPT,
     deflection: Optional[float] = DEFLECTION_OPT,
 ) -> None:
-    """Write a per-vertex field of a part as PLY, CSV or a PNG heatmap."""
+    """Write a per-vertex field of a part as PLY, CSV or a PNG picture."""
     from surfcheck.geometry.fields import vertex_field
     from surfcheck.io import save_vertex_field
 
@@ -418,22 +420,45 @@ def map_field(
     if suffix not in (".ply", ".csv", ".png"):
         raise InputError(f"{out_file}: give --out a .ply, .csv or .png name")
     check_outputs([out_file], [part])
+    lights = _lights(quantity, light, stripes)
     loaded = read_part(part, units=units, deflection=deflection)
-    field = vertex_field(loaded.part, quantity)
+    field = vertex_field(loaded.part, quantity, lights=lights)
     if suffix == ".png":
         from surfcheck.review.render import render_field
 
         render_field(loaded.part.vertices, loaded.part.faces, field.values, out_file, quantity=quantity,
-                     unit=field.unit, signed=field.signed, title=f"{field.description}: {part.name}")
+                     unit=field.unit, signed=field.signed, title=f"{field.description}: {part.name}",
+                     stripes=field.stripes)
     else:
         save_vertex_field(loaded.part, field.values, quantity, out_file)
     finite = field.values[np.isfinite(field.values)]
     if len(finite) == 0:
-        console.print(f"{quantity} [{field.unit}]: no vertex has a value (too few neighbours on this part);"
+        console.print(f"{quantity} \\[{field.unit}]: no vertex has a value (too few neighbours on this part);"
                       f" written to {out_file}")
         return
-    console.print(f"{quantity} [{field.unit}]: median {np.median(finite):.4g}, 2nd-98th percentile"
+    console.print(f"{quantity} \\[{field.unit}]: median {np.median(finite):.4g}, 2nd-98th percentile"
                   f" {np.percentile(finite, 2):.4g} .. {np.percentile(finite, 98):.4g}; written to {out_file}")
+
+
+def _lights(quantity: str, light: str | None, stripes: float | None) -> dict | None:
+    """The stripe fields' light set-up from --light and --stripes (InputError for other quantities or
+    a malformed direction)."""
+    if light is None and stripes is None:
+        return None
+    if quantity not in ("isophote", "reflection"):
+        raise InputError(f"--light and --stripes set up the isophote and reflection fields, not {quantity}")
+    if stripes is not None and quantity != "reflection":
+        raise InputError("--stripes is the light lines' spacing: it applies to --quantity reflection")
+    lights: dict = {"spacing": stripes}
+    if light is not None:
+        try:
+            direction = [float(x) for x in light.split(",")]
+        except ValueError:
+            direction = []
+        if len(direction) != 3:
+            raise InputError(f"--light {light!r}: give a direction as DX,DY,DZ")
+        lights["light" if quantity == "isophote" else "line_direction"] = direction
+    return lights
 
 
 @app.command()

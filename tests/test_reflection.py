@@ -14,14 +14,21 @@ reading of the field computed from the exact normals (the profile's heading) is 
 
 from __future__ import annotations
 
+import subprocess
+import sys
+
 import numpy as np
 import pytest
+from PIL import Image
 from scipy.spatial import cKDTree
 
 from surfcheck.demo import shapes as S
 from surfcheck.errors import InputError
 from surfcheck.geometry.differential import principal_curvatures
-from surfcheck.geometry.reflection import choose_lights, isophote_value, reflection_parameter
+from surfcheck.geometry.reflection import choose_lights, isophote_value, part_lights, reflection_parameter
+from surfcheck.io import read_part, save_part
+from surfcheck.part import Part
+from surfcheck.review.render import STRIPE_COLOURS
 
 EDGE, DEPTH, REACH = 0.2, 6.0, 3.0  # mm
 WINDOW = 1.5  # mm of data per side beyond the fits' reach
@@ -109,3 +116,35 @@ def test_bad_light_settings_are_input_errors():
                    {"reach": 1.0, "line_direction": [np.nan, 0, 0]}):
         with pytest.raises(InputError):
             choose_lights(*args, **kwargs)
+
+
+def run_cli(*args: str) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "surfcheck", *args], capture_output=True, text=True, timeout=600)
+
+
+def test_map_writes_the_stripe_fields_as_the_other_quantities(tmp_path):
+    # the CSV holds, per vertex, the reflection parameter of the part's default lights from its jet normals
+    part = tmp_path / "arc.obj"
+    mesh = S.extrude(S.Profile(PROFILES["arc"]), DEPTH, 0.4)
+    save_part(Part(mesh.vertices, mesh.faces, mesh.face_group, mesh.group_names, "mm", "arc.obj"), part)
+    for quantity in ("reflection", "isophote"):
+        for suffix in (".csv", ".ply", ".png"):
+            out = tmp_path / f"{quantity}{suffix}"
+            run = run_cli("map", str(part), "--quantity", quantity, "--out", str(out))
+            assert run.returncode == 0 and out.is_file(), run.stderr
+    table = np.genfromtxt(tmp_path / "reflection.csv", delimiter=",", names=True)
+    loaded = read_part(part).part
+    normals = principal_curvatures(loaded.vertices, loaded.faces).normals
+    expected = reflection_parameter(loaded.vertices, normals, part_lights(loaded.vertices, normals))
+    np.testing.assert_allclose(table["reflection"], expected, rtol=1e-7, atol=1e-7)
+    image = np.asarray(Image.open(tmp_path / "reflection.png").convert("RGB")).astype(float)
+    stripe = np.array([int(STRIPE_COLOURS[0][k:k + 2], 16) for k in (1, 3, 5)], float)
+    assert (np.linalg.norm(image - stripe, axis=2) < 40).sum() > 2000  # dark bands drawn (shaded at most a little)
+    given = run_cli("map", str(part), "--quantity", "reflection", "--light", "0,0,1", "--stripes", "0.5",
+                    "--out", str(tmp_path / "given.csv"))
+    assert given.returncode == 0, given.stderr
+    for bad in (["--light", "1,0"], ["--stripes", "-1"], ["--light", "0,0,0"]):
+        run = run_cli("map", str(part), "--quantity", "reflection", *bad, "--out", str(tmp_path / "bad.csv"))
+        assert run.returncode == 2 and run.stderr.startswith("error: ") and len(run.stderr.splitlines()) == 1
+    run = run_cli("map", str(part), "--quantity", "mean", "--light", "0,0,1", "--out", str(tmp_path / "bad.csv"))
+    assert run.returncode == 2 and not (tmp_path / "bad.csv").exists()

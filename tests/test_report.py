@@ -80,7 +80,7 @@ def test_page_parses_as_html5_and_names_only_files_beside_it(review):
     refs = references(review["page"])
     files = [address for _, address in refs if not address.startswith("#")]
     images = [address for tag, address in refs if tag == "img"]
-    assert len(images) == 2 + 3 * 2  # two whole-part maps, three pictures per seam
+    assert len(images) == 2 + 4 * 2  # two whole-part maps, four pictures per seam
     assert "result.json" in files
     for address in files:
         parsed = urlparse(address)
@@ -170,7 +170,7 @@ def test_chromium_loads_every_picture(review, browser, tmp_path):
         "});</script></body></html>", encoding="utf-8")
     run = browser("--allow-file-access-from-files", "--virtual-time-budget=20000", "--dump-dom", harness.as_uri())
     listing = run.stdout.split('<pre id="out">', 1)[-1].split("</pre>", 1)[0].splitlines()
-    assert listing[0] == "images 8", run.stdout[-2000:] + run.stderr[-2000:]
+    assert listing[0] == "images 10", run.stdout[-2000:] + run.stderr[-2000:]
     assert all(line.startswith("loaded ") for line in listing[1:]), listing
 
 

@@ -31,6 +31,7 @@ LINE_ANGLE_DEG = 45.0  # light lines turned this far from the seam, so their ima
 LIGHT_TILT_DEG = 30.0  # the isophotes' light tilted this far from the mean normal, across the seam; common practice
 STRIPES_PER_REACH = 3.0  # light-line spacing: the reach (the plane's height) / this; no published source
 ISOPHOTE_BANDS = 8.0  # isophote step: the brightness range near the seam / this; no published source
+PART_STRIPES = 24.0  # light lines over a whole part's diagonal; no published source
 MIN_FACING = 0.3  # below this |mean normal|, the normals cancel (a closed part): use the flattest axis
 
 
@@ -77,12 +78,13 @@ def facing_normal(points: np.ndarray, normals: np.ndarray) -> np.ndarray:
 
 
 def choose_lights(points: np.ndarray, normals: np.ndarray, along: np.ndarray, centre: np.ndarray,
-                  reach: float, line_direction=None, spacing: float | None = None) -> Lights:
+                  reach: float, line_direction=None, spacing: float | None = None, light=None,
+                  bands: float = ISOPHOTE_BANDS) -> Lights:
     """Lights for looking at the surface near ``centre``: the light plane at height ``reach`` above it,
     facing the mean normal N of ``points`` (with their unit ``normals``), the eye along N; the light
     lines turned LINE_ANGLE_DEG from ``along`` (a seam's direction) towards C = N x along, so their
     images cross the seam, reach / STRIPES_PER_REACH apart; the isophotes' light turned
-    LIGHT_TILT_DEG from N towards C, ISOPHOTE_BANDS levels over the brightness range of ``points``.
+    LIGHT_TILT_DEG from N towards C, ``bands`` levels over the brightness range of ``points``.
 
     Parameters
     ----------
@@ -98,6 +100,10 @@ def choose_lights(points: np.ndarray, normals: np.ndarray, along: np.ndarray, ce
         The light lines' direction, given; projected into the plane.
     spacing : float, optional
         The light lines' spacing, given (part units).
+    light : (3,) float, optional
+        The isophotes' light direction, given.
+    bands : float
+        Isophote levels over the brightness range of ``points``.
 
     Returns
     -------
@@ -123,12 +129,30 @@ def choose_lights(points: np.ndarray, normals: np.ndarray, along: np.ndarray, ce
             raise InputError("the light lines' direction runs towards the eye; give one across the view")
         a = a / np.linalg.norm(a)
     tilt = np.radians(LIGHT_TILT_DEG)
-    light = np.cos(tilt) * n + np.sin(tilt) * c
+    light = np.cos(tilt) * n + np.sin(tilt) * c if light is None else _unit(light, "the light direction")
     brightness = normals @ light
     brightness = brightness[np.isfinite(brightness)]
     span = float(np.ptp(brightness)) if brightness.size else 0.0
     return Lights(n, np.asarray(centre, float) + reach * n, a, float(spacing or reach / STRIPES_PER_REACH), light,
-                  max(span / ISOPHOTE_BANDS, 1e-3))
+                  max(span / bands, 1e-3))
+
+
+def part_lights(vertices: np.ndarray, normals: np.ndarray, line_direction=None, spacing: float | None = None,
+                light=None) -> Lights:
+    """choose_lights for a whole part: looking at its bounding-box centre along the mean normal (or its
+    flattest axis), the light plane one bounding-box diagonal above it, the light lines turned from
+    the part's longest axis, PART_STRIPES of them over the diagonal unless ``spacing`` is given, and
+    PART_STRIPES isophote levels over the part's brightness range."""
+    V = np.asarray(vertices, float)
+    used = np.isfinite(normals).all(axis=1) & (np.linalg.norm(normals, axis=1) > 0.5)
+    if not used.any():
+        raise InputError("no vertex has a normal: the part has no faces to reflect light")
+    centred = V[used] - V[used].mean(axis=0)
+    longest = np.linalg.svd(centred[:: max(1, len(centred) // 20000)], full_matrices=False)[2][0]
+    low, high = V[used].min(axis=0), V[used].max(axis=0)
+    diagonal = float(np.linalg.norm(high - low)) or 1.0
+    return choose_lights(V[used], normals[used], longest, 0.5 * (low + high), diagonal, line_direction,
+                         spacing or diagonal / PART_STRIPES, light, PART_STRIPES)
 
 
 def isophote_value(normals: np.ndarray, light: np.ndarray) -> np.ndarray:

@@ -3,7 +3,8 @@ DIR/result.json, the document `grade --json` prints (grading.document.run_docume
 drawn from the GradeRun: the stations, sections and side fits shown are the ones that were graded.
 
 Pictures: per seam, the curvature-jump field facing the seam with the seam coloured by its
-per-station result (whole part and a close-up at the governing station), the curvature profile across
+per-station result (whole part and a close-up at the governing station), its reflection lines
+(geometry/reflection.py, lights chosen for the seam), the curvature profile across
 it at its worst stations and G0..G3 along it (plots.py); for the whole part, the jump heatmaps.
 """
 
@@ -90,6 +91,20 @@ def without_boundary_band(part: Part, field: VertexField) -> VertexField:
     edge = part.vertices[boundary_vertices(part.faces, part.n_vertices)]
     band = _near(part.vertices, edge, field.radius) if np.isfinite(field.radius) else np.zeros(part.n_vertices, bool)
     return replace(field, values=np.where(band, np.nan, field.values))
+
+
+def seam_reflection(V: np.ndarray, normals: np.ndarray, seam_points: np.ndarray, centre: np.ndarray,
+                    reach: float):
+    """The reflection-line parameter at every vertex for lights chosen for one seam (reflection.
+    choose_lights: from the normals within ``reach`` of the seam, its direction and ``centre``), and
+    those lights."""
+    from surfcheck.geometry.reflection import choose_lights, reflection_parameter
+    from surfcheck.review.render import principal_axes
+
+    near = _near(V, seam_points, reach)
+    along = principal_axes(seam_points if len(seam_points) > 2 else V[near])[0]
+    lights = choose_lights(V[near], normals[near], along, centre, reach)
+    return reflection_parameter(V, normals, lights), lights
 
 
 def _grey(field: VertexField, units: str) -> str:
@@ -182,7 +197,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
     name = Path(part.source).name or "part"
     part_pictures: list[Picture] = []
     seam_pictures: dict[str, list[Picture]] = {}
-    with _Steps(2 + len(PART_QUANTITIES) + 3 * len(grades), quiet) as steps:
+    with _Steps(2 + len(PART_QUANTITIES) + 4 * len(grades), quiet) as steps:
         fields = {q: without_boundary_band(part, f)
                   for q, f in vertex_fields(part, dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY])).items()}
         curvature = principal_curvatures(V, F)
@@ -210,10 +225,11 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
             stem = _file_name(grade.id)
             radius = CLOSE_UP_EDGES * edge
             near = _near(V, curve.points, radius)
+            views = seam_views(V, F, curve.points, focus, radius, grade.id)
             render_field(V, F, f.values, out / f"{stem}-map.png", quantity=SEAM_QUANTITY, unit=f.unit,
                          signed=f.signed, seams=[overlay], limits=colour_limits(f.values[near], f.signed),
                          limits_rule=limits_text(f.signed, f"within {radius:.3g} {part.units} of {grade.id}"),
-                         views=seam_views(V, F, curve.points, focus, radius, grade.id),
+                         views=views,
                          title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}) over the {f.description}")
             pictures.append(Picture(f"{stem}-map.png", f"{f.description} [{f.unit}] around {grade.id}, facing it;"
                                     f" close-up at the governing station of {ORDERS[order]}. Tube: the seam; balls: the stations'"
@@ -221,6 +237,23 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
                                     f" result up to {ORDERS[order]} per station.{_grey(f, part.units)}",
                                     f"{grade.id} over the {SEAM_QUANTITY} heatmap"))
             steps.advance(f"{grade.id} picture")
+            lines, lights = seam_reflection(V, curvature.normals, curve.points, focus, radius)
+            shown = lines[near & np.isfinite(lines)]
+            render_field(V, F, lines, out / f"{stem}-reflection.png", quantity="reflection", unit=part.units,
+                         signed=False, seams=[overlay], views=views, stripes=lights.spacing,
+                         limits=(float(shown.min()), float(shown.max())) if shown.size else (0.0, 1.0),
+                         title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}): reflection lines")
+            pictures.append(Picture(f"{stem}-reflection.png", f"Reflection lines near {grade.id}: the part as a"
+                                    " mirror of parallel light lines"
+                                    f" {lights.spacing:.3g} {part.units} apart in a plane {radius:.3g} {part.units}"
+                                    " above the seam, seen from above it, from the smoothed (jet-fit) normals;"
+                                    f" stripes within {radius:.3g} {part.units} of the seam. A stripe that breaks"
+                                    " at the seam: the normals jump (G0 at most); one that kinks: the curvature"
+                                    " jumps (G1, not G2); one that bends on smoothly: G2 or better. The jet fits"
+                                    f" round a break or a kink off over their radius ({curvature.radius:.2g}"
+                                    f" {part.units}) each side.",
+                                    f"{grade.id} reflection lines"))
+            steps.advance(f"{grade.id} reflection lines")
             plot_along_seam(grade, out / f"{stem}-along.png", coverage=profile.coverage)
             pictures.append(Picture(f"{stem}-along.png", f"G0..G3 at each station along {grade.id} against the"
                                     " tolerance (shaded: within tolerance).", f"{grade.id} G0 to G3 along the seam"))

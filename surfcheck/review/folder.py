@@ -37,6 +37,7 @@ PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
 SEAM_QUANTITY = "jump"  # the field under each seam's picture
 CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam
 PAGE_FILE, RESULT_FILE = "index.html", "result.json"
+VIEW_FILE = "part-3d.html"  # the interactive view, when trame-vtk is installed
 FIXED_FILES = (PAGE_FILE, RESULT_FILE)  # the names a review folder always holds, beside its pictures
 LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib")
 
@@ -215,6 +216,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
                                          f" their per-station result up to {'/'.join(shown)}.{_grey(f, part.units)}",
                                          f"{quantity} heatmap of the whole part"))
             steps.advance(quantity)
+        interactive = _interactive_view(part, fields[SEAM_QUANTITY], overlays, out)
         for seam, overlay in zip(graded, overlays):
             curve, grade = seam.curve, seam.grade
             pictures = seam_pictures.setdefault(grade.id, [])
@@ -267,10 +269,24 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
         context = {"surfcheck": __version__, "libraries": _library_versions(),
                    "written": datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")}
         notes = _notes(document)
-        page = review_page(document, summary, part_pictures, seam_pictures, context, notes)
+        page = review_page(document, summary, part_pictures, seam_pictures, context, notes, interactive)
         write_atomic(out / PAGE_FILE, page.encode("utf-8"))
         steps.advance("page")
     return out / PAGE_FILE
+
+
+def _interactive_view(part: Part, field: VertexField, overlays: list, out: Path) -> str | None:
+    """Write the part's interactive 3D view (view3d.py) coloured by ``field`` with the seams; its file
+    name, or None when trame-vtk is not installed."""
+    from surfcheck.review import view3d
+    from surfcheck.review.render import colour_limits, overview_views
+
+    if not view3d.available():
+        return None
+    view3d.write_view(part.vertices, part.faces, field.values, out / VIEW_FILE, seams=overlays,
+                      limits=colour_limits(field.values, field.signed),
+                      view=overview_views(part.vertices, part.faces)[0])
+    return VIEW_FILE
 
 
 def _notes(document: dict) -> list[str]:

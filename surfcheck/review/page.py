@@ -224,13 +224,19 @@ def _parameters_section(document: dict, context: dict) -> str:
 
 
 def review_page(document: dict, summary: dict, part_pictures: list[Picture], seam_pictures: dict[str, list[Picture]],
-                context: dict, notes: list[str]) -> str:
+                context: dict, notes: list[str], interactive: str | None = None) -> str:
     """The whole page as text. ``context``: extra facts for the parameters table (tool and library
-    versions, time); ``notes``: cautions beyond the document's own."""
+    versions, time); ``notes``: cautions beyond the document's own; ``interactive``: the file of the
+    interactive 3D view beside the page, linked from the whole-part maps."""
     source = escape(document["part"]["source"])
     contents = "".join(f'<li><a href="#{escape(s["id"])}">{escape(s["id"])}: {escape(" | ".join(s["groups"]))}</a></li>'
                        for s in document["seams"])
     maps = "".join(_figure(p) for p in part_pictures)
+    if interactive:
+        href = escape(interactive, quote=True)
+        maps = (f'<p><a href="{href}"><b>Turn the part in 3D</b></a> (opens in the browser, no network needed):'
+                " the curvature-jump field with the seams in their result colours; drag to turn, scroll to"
+                " zoom.</p>" + maps)
     seams = "".join(_seam_section(s, document, seam_pictures.get(s["id"], [])) for s in document["seams"])
     cautions = "".join(f"<p>{escape(n)}</p>" for n in [document["caution"], *notes])
     return (

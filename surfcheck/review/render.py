@@ -173,7 +173,8 @@ def seam_views(V: np.ndarray, F: np.ndarray, seam_points: np.ndarray, focus: np.
 # ---------------------------------------------------------------- rendering
 
 
-def _pyvista():
+def offscreen_pyvista():
+    """PyVista set to render off-screen, with VTK's log and warnings silenced."""
     import pyvista as pv
     import vtk
 
@@ -183,7 +184,8 @@ def _pyvista():
     return pv
 
 
-def _surface(pv, V: np.ndarray, F: np.ndarray):
+def surface_mesh(pv, V: np.ndarray, F: np.ndarray):
+    """The triangles as a PyVista PolyData."""
     cells = np.hstack([np.full((len(F), 1), 3), F]).astype(np.int64).ravel()
     return pv.PolyData(np.asarray(V, dtype=float), cells)
 
@@ -198,23 +200,29 @@ def _outlined(pv, plotter, mesh_at, colour: str, radius: float, towards_eye: np.
                              lighting=False)]
 
 
+def status_runs(seam: SeamOverlay) -> list[tuple[np.ndarray, str]]:
+    """The seam cut into runs of equal status: (points (k >= 2, 3), status) each, every run sharing
+    its last point with the next."""
+    runs, status, start = [], list(seam.status), 0
+    for i in range(1, len(status) + 1):
+        if i == len(status) or status[i] != status[start]:
+            points = seam.points[start:min(i + 1, len(status))]
+            if len(points) >= 2:
+                runs.append((points, status[start]))
+            start = i
+    return runs
+
+
 def _add_seam(pv, plotter, seam: SeamOverlay, radius: float, towards_eye: np.ndarray) -> list:
     """Each run of equal status along the seam as one outlined tube of that status's colour; station
     markers as outlined balls (``towards_eye``: unit vector from the part to the camera). Returns the
     actors added."""
     actors = []
-    status = list(seam.status)
-    start = 0
-    for i in range(1, len(status) + 1):
-        if i == len(status) or status[i] != status[start]:
-            points = seam.points[start:min(i + 1, len(status))]
-            if len(points) >= 2:
-                def tube(r, shift, points=points):
-                    return pv.lines_from_points(points + shift).tube(radius=r, n_sides=16)
+    for points, state in status_runs(seam):
+        def tube(r, shift, points=points):
+            return pv.lines_from_points(points + shift).tube(radius=r, n_sides=16)
 
-                actors += _outlined(pv, plotter, tube, STATUS_COLOURS.get(status[start], "#000000"), radius,
-                                    towards_eye)
-            start = i
+        actors += _outlined(pv, plotter, tube, STATUS_COLOURS.get(state, "#000000"), radius, towards_eye)
     if seam.markers is not None:
         for point, state in zip(np.atleast_2d(seam.markers), seam.marker_status):
             def ball(r, shift, point=point):
@@ -224,7 +232,7 @@ def _add_seam(pv, plotter, seam: SeamOverlay, radius: float, towards_eye: np.nda
     return actors
 
 
-def _camera(view: View, V: np.ndarray, aspect: float) -> tuple[list, float]:
+def frame_view(view: View, V: np.ndarray, aspect: float) -> tuple[list, float]:
     """PyVista camera position and parallel scale that frame the view's target (the whole part, or the
     vertices within the close-up ball) in a panel of width / height ``aspect``, with a small margin."""
     target = V if view.focus is None else V[np.linalg.norm(V - view.focus, axis=1) <= view.radius]
@@ -246,9 +254,9 @@ def render_views(V: np.ndarray, F: np.ndarray, values: np.ndarray, views: list[V
     """One RGB image of ``pixels`` (width, height) per view of the part coloured by ``values``
     (clipped to ``limits``; ``cmap`` a name or a matplotlib colour map of ``n_colors`` entries, looked
     up per pixel after interpolating the values), seams on top."""
-    pv = _pyvista()
+    pv = offscreen_pyvista()
     V = np.asarray(V, dtype=float)
-    surface = _surface(pv, V, F)
+    surface = surface_mesh(pv, V, F)
     surface.point_data["field"] = np.where(np.isfinite(values), values, np.nan)
     plotter = pv.Plotter(off_screen=True, window_size=list(pixels), border=False, lighting="none")
     plotter.set_background("white")
@@ -264,7 +272,7 @@ def render_views(V: np.ndarray, F: np.ndarray, values: np.ndarray, views: list[V
     plotter.enable_parallel_projection()
     images = []
     for view in views:
-        position, half = _camera(view, V, pixels[0] / pixels[1])
+        position, half = frame_view(view, V, pixels[0] / pixels[1])
         pixel = 2.0 * half / pixels[1]  # world length of one pixel
         actors = [a for seam in seams for a in _add_seam(pv, plotter, seam, TUBE_PIXELS * pixel, view.direction)]
         plotter.camera_position = position

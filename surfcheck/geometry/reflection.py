@@ -12,8 +12,10 @@ direction b = m x a. The eye looks along -e from infinitely far (a parallel view
 meets the surface at x, is mirrored to r = d - 2 (d . n) n (d = -e), and meets the light plane at
 x + mu r, mu = (c - m . x) / (m . r); the reflection-line parameter is t = b . (x + mu r - p) (p a
 point of the plane), so the light line of index j is seen where t = j spacing, and t / spacing is the
-stripe phase. Where the mirrored ray runs away from the plane (mu <= 0 or m . r <= 0) the surface
-reflects none of these lines: t is NaN there.
+stripe phase. Where the mirrored ray runs away from the plane or grazes it (mu <= 0 or m . r <=
+GRAZING) the surface reflects none of these lines: t is NaN there. With the eye along m, that is
+where the surface turns more than about 45 deg from m: the two faces of a right-angled crease mirror
+no common light line.
 
 The normals should be the jet-fit normals (differential.principal_curvatures): the faceted triangle
 normals would make every facet a stripe of its own.
@@ -32,6 +34,7 @@ LIGHT_TILT_DEG = 30.0  # the isophotes' light tilted this far from the mean norm
 STRIPES_PER_REACH = 3.0  # light-line spacing: the reach (the plane's height) / this; no published source
 ISOPHOTE_BANDS = 8.0  # isophote step: the brightness range near the seam / this; no published source
 PART_STRIPES = 24.0  # light lines over a whole part's diagonal; no published source
+GRAZING = 0.05  # a mirrored ray within about 3 deg of the light plane reaches it far off: no value; no published source
 MIN_FACING = 0.3  # below this |mean normal|, the normals cancel (a closed part): use the flattest axis
 
 
@@ -196,7 +199,7 @@ def reflection_parameter(vertices: np.ndarray, normals: np.ndarray, lights: Ligh
     towards = r @ m
     height = (lights.plane_point - x) @ m
     with np.errstate(divide="ignore", invalid="ignore"):
-        mu = np.where(towards > 1e-6, height / towards, np.nan)
+        mu = np.where(towards > GRAZING, height / towards, np.nan)
     hit = x + mu[:, None] * r
     t = (hit - lights.plane_point) @ lights.across
     valid = (mu > 0) & (np.linalg.norm(n, axis=1) > 0.5)

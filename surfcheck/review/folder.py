@@ -243,7 +243,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
             shown = lines[near & np.isfinite(lines)]
             render_field(V, F, lines, out / f"{stem}-reflection.png", quantity="reflection", unit=part.units,
                          signed=False, seams=[overlay], views=views, stripes=lights.spacing,
-                         limits=(float(shown.min()), float(shown.max())) if shown.size else (0.0, 1.0),
+                         limits=colour_limits(shown, False),
                          title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}): reflection lines")
             pictures.append(Picture(f"{stem}-reflection.png", f"Reflection lines near {grade.id}: the part as a"
                                     " mirror of parallel light lines"
@@ -253,7 +253,9 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
                                     " at the seam: the normals jump (G0 at most); one that kinks: the curvature"
                                     " jumps (G1, not G2); one that bends on smoothly: G2 or better. The jet fits"
                                     f" round a break or a kink off over their radius ({curvature.radius:.2g}"
-                                    f" {part.units}) each side.",
+                                    f" {part.units}) each side. Light grey: the surface mirrors no light line"
+                                    " there (it turns more than about 45 deg from the seam's mean normal, as the"
+                                    " faces of a right-angled crease do) or lies outside the stripes shown.",
                                     f"{grade.id} reflection lines"))
             steps.advance(f"{grade.id} reflection lines")
             plot_along_seam(grade, out / f"{stem}-along.png", coverage=profile.coverage)

@@ -5,7 +5,8 @@ drawn from the GradeRun: the stations, sections and side fits shown are the ones
 Pictures: per seam, the curvature-jump field facing the seam with the seam coloured by its
 per-station result (whole part and a close-up at the governing station), its reflection lines
 (geometry/reflection.py, lights chosen for the seam), the curvature profile across
-it at its worst stations and G0..G3 along it (plots.py); for the whole part, the jump heatmaps.
+it at its worst stations and G0..G3 along it (plots.py); for the whole part, the jump heatmaps and
+DIR/part-3d.html, the part to turn in the browser (view3d.py).
 """
 
 from __future__ import annotations
@@ -38,8 +39,8 @@ SEAM_QUANTITY = "jump"  # the field under each seam's picture
 CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam
 PAGE_FILE, RESULT_FILE = "index.html", "result.json"
 VIEW_FILE = "part-3d.html"  # the interactive view, when trame-vtk is installed
-FIXED_FILES = (PAGE_FILE, RESULT_FILE)  # the names a review folder always holds, beside its pictures
-LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib")
+FIXED_FILES = (PAGE_FILE, RESULT_FILE, VIEW_FILE)  # the names a review folder holds, beside its pictures
+LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib", "trame-vtk")
 
 
 def station_statuses(grade: SeamGrade, upto: int) -> tuple[Status, ...]:

@@ -310,8 +310,8 @@ def blend(
     chain_to: str = typer.Option(..., "--to", help="Boundary chain id on the (second) part."),
     order: int = typer.Option(..., "--order", help="Contact order K to reach on both seams: 1, 2 or 3."),
     step: str = typer.Option("hermite", "--step", help="Smooth step: hermite (default), rational, exp or linear."),
-    span: Optional[float] = typer.Option(None, "--span", help="How far each side's extension reaches, in part units."),
-    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default: from the chains and the span)."),
+    reach: Optional[float] = typer.Option(None, "--reach", help="How far each side's extension reaches, in part units."),
+    resolution: Optional[float] = typer.Option(None, "--resolution", help="Patch edge length (default: from the chains and the reach)."),
     out_patch: Optional[Path] = typer.Option(None, "--out", help="Write the patch alone (.obj, .ply, .stl)."),
     merged_file: Optional[Path] = typer.Option(None, "--merged", help="Write part(s) + patch, welded, as one grouped file."),
     tolerance: str = TOLERANCE_OPT,
@@ -333,7 +333,7 @@ def blend(
     part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units, deflection=deflection, command="blend").part
     chain_a = _one_chain(SeamIndex(part_a), chain_from, parts[0])
     chain_b = _one_chain(SeamIndex(part_b), chain_to, parts[-1])
-    result = build_blend(part_a, chain_a, part_b, chain_b, order, step, span, resolution)
+    result = build_blend(part_a, chain_a, part_b, chain_b, order, step, reach, resolution)
     merged = merge_with_patch(part_a, result, None if len(parts) == 1 else part_b)
     if out_patch:
         save_part(patch_part(result, part_a.units, str(out_patch)), out_patch)
@@ -341,7 +341,7 @@ def blend(
         save_part(merged.part, merged_file)
     grades = prove_blend(merged, profile)
     document = grade_document(merged.part, grades, profile, order,
-                              {"from": chain_from, "to": chain_to, "order": order, "step": step, "span": span,
+                              {"from": chain_from, "to": chain_to, "order": order, "step": step, "reach": reach,
                                "resolution": result.spacing, "row_spacing": result.row_spacing,
                                "problems": list(result.problems)})
     if as_json:
@@ -465,12 +465,14 @@ def _progress(items: list, what: str, quiet: bool):
 @app.command("map")
 def map_field(
     part: Path = PART_ARG,
-    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean, gaussian, jump or tangent-jump."),
-    out_file: Path = typer.Option(..., "--out", help="Output: .ply (vertex property), .csv or .png (heatmap)."),
+    quantity: str = typer.Option("mean", "--quantity", help="k1, k2, mean, gaussian, jump, tangent-jump, isophote or reflection."),
+    out_file: Path = typer.Option(..., "--out", help="Output: .ply (vertex property), .csv or .png (heatmap; stripes for isophote and reflection)."),
+    light: Optional[str] = typer.Option(None, "--light", help="DX,DY,DZ: the light direction (isophote) or the light lines' direction (reflection); default from the part."),
+    stripes: Optional[float] = typer.Option(None, "--stripes", help="Light-line spacing, part units (reflection; default the part's diagonal / 24)."),
     units: str = UNITS_OPT,
     deflection: Optional[float] = DEFLECTION_OPT,
 ) -> None:
-    """Write a per-vertex field of a part as PLY, CSV or a PNG heatmap."""
+    """Write a per-vertex field of a part as PLY, CSV or a PNG picture."""
     from surfcheck.geometry.fields import vertex_field
     from surfcheck.io import save_vertex_field
 
@@ -478,22 +480,45 @@ def map_field(
     if suffix not in (".ply", ".csv", ".png"):
         raise InputError(f"{out_file}: give --out a .ply, .csv or .png name")
     check_outputs([out_file], [part])
+    lights = _lights(quantity, light, stripes)
     loaded = read_part(part, units=units, deflection=deflection, command="map")
-    field = vertex_field(loaded.part, quantity)
+    field = vertex_field(loaded.part, quantity, lights=lights)
     if suffix == ".png":
         from surfcheck.review.render import render_field
 
         render_field(loaded.part.vertices, loaded.part.faces, field.values, out_file, quantity=quantity,
-                     unit=field.unit, signed=field.signed, title=f"{field.description}: {part.name}")
+                     unit=field.unit, signed=field.signed, title=f"{field.description}: {part.name}",
+                     stripes=field.stripes)
     else:
         save_vertex_field(loaded.part, field.values, quantity, out_file)
     finite = field.values[np.isfinite(field.values)]
     if len(finite) == 0:
-        console.print(f"{quantity} [{field.unit}]: no vertex has a value (too few neighbours on this part);"
+        console.print(f"{quantity} \\[{field.unit}]: no vertex has a value (too few neighbours on this part);"
                       f" written to {out_file}")
         return
-    console.print(f"{quantity} [{field.unit}]: median {np.median(finite):.4g}, 2nd-98th percentile"
+    console.print(f"{quantity} \\[{field.unit}]: median {np.median(finite):.4g}, 2nd-98th percentile"
                   f" {np.percentile(finite, 2):.4g} .. {np.percentile(finite, 98):.4g}; written to {out_file}")
+
+
+def _lights(quantity: str, light: str | None, stripes: float | None) -> dict | None:
+    """The stripe fields' light set-up from --light and --stripes (InputError for other quantities or
+    a malformed direction)."""
+    if light is None and stripes is None:
+        return None
+    if quantity not in ("isophote", "reflection"):
+        raise InputError(f"--light and --stripes set up the isophote and reflection fields, not {quantity}")
+    if stripes is not None and quantity != "reflection":
+        raise InputError("--stripes is the light lines' spacing: it applies to --quantity reflection")
+    lights: dict = {"spacing": stripes}
+    if light is not None:
+        try:
+            direction = [float(x) for x in light.split(",")]
+        except ValueError:
+            direction = []
+        if len(direction) != 3:
+            raise InputError(f"--light {light!r}: give a direction as DX,DY,DZ")
+        lights["light" if quantity == "isophote" else "line_direction"] = direction
+    return lights
 
 
 @app.command()

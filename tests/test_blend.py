@@ -14,7 +14,7 @@ import pytest
 import trimesh
 
 from tests.fixtures.blend_fixtures import CASES, Revolved, achieved_order, corner_b, offset_b, pair, plane_a
-from surfcheck.blend.patch import build_blend, default_spans, merge_with_patch
+from surfcheck.blend.patch import build_blend, default_reaches, merge_with_patch
 from surfcheck.blend.checks import crossing_pairs
 from surfcheck.blend.correspondence import match_chains, point_at
 from surfcheck.blend.extension import boundary_extension
@@ -63,7 +63,7 @@ def test_linear_step_kinks_where_the_reach_point_is_off_the_tangent_plane(case, 
 def test_linear_step_between_planes_is_the_quadratic_bezier_of_the_corner():
     # Reference: de Casteljau's construction (Farin, Curves and Surfaces for CAGD, 5th ed., sec. 4.1):
     # (1 - t)[(1 - t) b0 + t b1] + t[(1 - t) b1 + t b2] is the quadratic Bezier curve of b0, b1, b2.
-    # With spans that reach the corner b1 of the two tangent lines, a linear-step blend of two planes
+    # With reaches that reach the corner b1 of the two tangent lines, a linear-step blend of two planes
     # is that curve: tangent to both planes (G1, though the step is only C^0), not G2.
     sheet_a, sheet_b, gap, closed = CASES["planes at 40 degrees"]
     a, b = pair(sheet_a, sheet_b, gap)
@@ -71,8 +71,8 @@ def test_linear_step_between_planes_is_the_quadratic_bezier_of_the_corner():
     t = np.linspace(0.0, 1.0, 11)[:, None]
     s = blend.surface
     b0, b2 = s.side_a.p, s.side_b.p
-    b1 = b0 + s.span_a[:, None] * s.side_a.D
-    np.testing.assert_allclose(b1, b2 + s.span_b[:, None] * s.side_b.D, atol=1e-6)  # the corner
+    b1 = b0 + s.reach_a[:, None] * s.side_a.D
+    np.testing.assert_allclose(b1, b2 + s.reach_b[:, None] * s.side_b.D, atol=1e-6)  # the corner
     corner = np.array([0.0, 5.0, 0.0])
     np.testing.assert_allclose(b1[:, 1:], np.broadcast_to(corner[1:], b1[:, 1:].shape), atol=1e-6)
     bezier = (1 - t)[..., None] * ((1 - t)[..., None] * b0 + t[..., None] * b1) + t[..., None] * (
@@ -85,22 +85,22 @@ def test_linear_step_between_planes_is_the_quadratic_bezier_of_the_corner():
 def test_offset_step_is_the_graph_of_the_step(kind):
     # Reference: the one-dimensional blend of two functions, (1 - phi(y/g)) 0 + phi(y/g) h, i.e. the
     # step itself (steps.smooth_step, checked against sympy). Parallel planes z = 0 (y <= 0) and
-    # z = h (y >= g): the default span is g on both sides and every column is z = h phi(y / g).
+    # z = h (y >= g): the default reach is g on both sides and every column is z = h phi(y / g).
     a, b = pair(plane_a(), offset_b(2.5, 6.0), 6.0, seed=None)
     blend = build_blend(a.part, a.chain, b.part, b.chain, 2, step=kind)
     s = blend.surface
-    np.testing.assert_allclose(s.span_a, 6.0, rtol=1e-6)
-    np.testing.assert_allclose(s.span_b, 6.0, rtol=1e-6)
+    np.testing.assert_allclose(s.reach_a, 6.0, rtol=1e-6)
+    np.testing.assert_allclose(s.reach_b, 6.0, rtol=1e-6)
     t = np.linspace(0.0, 1.0, 41)
     P = s.derivative(t[:, None])
     np.testing.assert_allclose(P[..., 1], 6.0 * t[:, None] * np.ones(P.shape[1]), atol=1e-6)
     np.testing.assert_allclose(P[..., 2], 2.5 * smooth_step(t, kind, 2)[:, None] * np.ones(P.shape[1]), atol=1e-6)
 
 
-def test_default_spans_reach_the_corner_open_a_u_turn_and_follow_a_step():
+def test_default_reaches_reach_the_corner_open_a_u_turn_and_follow_a_step():
     # Geometry of the rule (docs/blend.md), exact by construction: symmetric 90-degree corner with legs
-    # 3 -> spans 3; U-turn between parallel plates 4 apart facing the same way -> span = gap * sin^2(90)
-    # = 4; offset step of run 5 -> span 5.
+    # 3 -> reaches 3; U-turn between parallel plates 4 apart facing the same way -> reach = gap * sin^2(90)
+    # = 4; offset step of run 5 -> reach 5.
     from surfcheck.blend.extension import Extension
 
     def ext(p, D):
@@ -110,8 +110,8 @@ def test_default_spans_reach_the_corner_open_a_u_turn_and_follow_a_step():
              ((0, 0, 0), (0, 1, 0), (0, 0, 4), (0, 1, 0), 4.0, 4.0),
              ((0, 0, 0), (0, 1, 0), (0, 5, 2), (0, -1, 0), 5.0, 5.0)]
     for pa, da, pb, db, want_a, want_b in cases:
-        span_a, span_b = default_spans(ext(pa, da), ext(pb, db))
-        assert span_a[0] == pytest.approx(want_a) and span_b[0] == pytest.approx(want_b)
+        reach_a, reach_b = default_reaches(ext(pa, da), ext(pb, db))
+        assert reach_a[0] == pytest.approx(want_a) and reach_b[0] == pytest.approx(want_b)
 
 
 def test_patch_derivatives_match_finite_differences():
@@ -206,16 +206,16 @@ def test_both_chains_on_one_part():
     assert achieved_order(blend, a, b) >= (2, 2)
 
 
-def test_a_span_too_long_for_the_gap_is_reported_with_its_reason():
-    # A span six times the run of an offset step overshoots: the section reaches back behind side A's
+def test_a_reach_too_long_for_the_gap_is_reported_with_its_reason():
+    # A reach six times the run of an offset step overshoots: the section reaches back behind side A's
     # boundary (checked on the analytic patch as the independent reference).
     a, b = pair(plane_a(), offset_b(2.0, 5.0), 5.0)
     assert build_blend(a.part, a.chain, b.part, b.chain, 2).problems == ()
     a, b = pair(plane_a(), offset_b(4.0, 2.0), 2.0)
-    blend = build_blend(a.part, a.chain, b.part, b.chain, 2, step="exp", span=12.0)
+    blend = build_blend(a.part, a.chain, b.part, b.chain, 2, step="exp", reach=12.0)
     t = np.linspace(0.0, 1.0, 201)
     assert blend.surface.derivative(t[:, None])[..., 1].min() < -0.1  # y < 0: behind A's boundary
-    assert any("leans back" in p and "span is too long for the gap" in p for p in blend.problems)
+    assert any("leans back" in p and "reach is too long for the gap" in p for p in blend.problems)
 
 
 def test_a_gap_too_short_for_its_turn_is_reported_with_its_reason():
@@ -280,7 +280,7 @@ def test_zipped_rows_cover_both_rows_counter_clockwise():
 @pytest.mark.parametrize(
     "request_",
     [
-        dict(order=4), dict(order=0), dict(step="cubic"), dict(span=-1.0), dict(same=True),
+        dict(order=4), dict(order=0), dict(step="cubic"), dict(reach=-1.0), dict(same=True),
     ],
 )
 def test_bad_requests_are_one_line_input_errors(request_):

@@ -131,7 +131,7 @@ def test_vertex_field_names_and_units():
     s = sphere(2.0, 4)
     for quantity in QUANTITIES:
         values, unit = vertex_field(s.V, s.F, quantity, units="mm")
-        assert values.shape == (len(s.V),) and unit in ("1/mm", "1/mm^2", "deg")
+        assert values.shape == (len(s.V),) and unit in ("1/mm", "1/mm^2", "deg", "1", "mm")
     gaussian, unit = vertex_field(s.V, s.F, "gaussian")
     assert unit == "1/mm^2" and np.median(gaussian) == pytest.approx(0.25, rel=0.02)  # K = 1/R^2
     with pytest.raises(InputError):

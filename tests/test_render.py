@@ -93,6 +93,18 @@ def test_seam_is_drawn_in_both_views(pictures):
             assert (np.linalg.norm(panel - colour, axis=2) < 12).sum() > 30  # tube pixels (drawn unlit, in their own colour)
 
 
+def test_ok_tube_is_outlined_so_a_mid_range_field_cannot_hide_it(pictures):
+    # the ok colour is a mid value of viridis; beside every ok tube pixel, within the outline's width,
+    # lies a pixel of the dark outline (render.OUTLINE_COLOUR), on both sides of the tube
+    image = pixels(pictures["seam"])[:650]
+    ok = np.linalg.norm(image - np.array([0x1F, 0x9E, 0x89], float), axis=2) < 12
+    dark = np.linalg.norm(image - np.array([0x11, 0x11, 0x11], float), axis=2) < 60
+    rows, cols = np.nonzero(ok)
+    outlined = [dark[r, max(c - 6, 0):c].any() and dark[r, c + 1:c + 7].any()
+                or dark[max(r - 6, 0):r, c].any() and dark[r + 1:r + 7, c].any() for r, c in zip(rows, cols)]
+    assert len(outlined) > 60 and np.mean(outlined) > 0.9
+
+
 def test_jump_field_peaks_on_the_fillet_tangent_lines_and_not_on_the_smooth_step():
     """The curvature of a circle of radius R is 1/R and of a plane 0 (a handbook fact), so across the
     fillet's tangent lines the curvature jumps by 1/R; a smooth-step blend's curvature is continuous

@@ -7,6 +7,7 @@ from __future__ import annotations
 import html
 import json
 import os
+import re
 import shutil
 import subprocess
 import sys
@@ -79,7 +80,7 @@ def test_page_parses_as_html5_and_names_only_files_beside_it(review):
     refs = references(review["page"])
     files = [address for _, address in refs if not address.startswith("#")]
     images = [address for tag, address in refs if tag == "img"]
-    assert len(images) == 2 + 3 * 2  # two whole-part maps, three pictures per seam
+    assert len(images) == 2 + 4 * 2  # two whole-part maps, four pictures per seam
     assert "result.json" in files
     for address in files:
         parsed = urlparse(address)
@@ -103,6 +104,26 @@ def test_page_states_verdict_seams_parameters_and_caution(review):
     for item in document["advice"]:
         assert html.escape(item["text"]) in text  # each seam short of G3 says what to do
     assert "surfcheck 0." in text and "numpy" in text  # tool and library versions
+
+
+def test_parameters_read_as_words_and_the_grey_band_is_a_length(review):
+    text = review["page"].read_text(encoding="utf-8")
+    table = text.split('id="parameters"', 1)[1]
+    assert "<th>seams</th><td>all seams</td>" in table  # not the Python list ['all']
+    assert "<th>nominal</th><td>none</td>" in table and "<th>spacing</th><td>two strip widths" in table
+    assert "<th>search</th><td>off</td>" in table
+    assert "None" not in table and "[&#x27;" not in table and "False" not in table
+    # the band without a value is the fits' radius wide: a length in the part's units (mm), never degrees
+    radii = re.findall(r"fits&#x27; radius, ([0-9.e+-]+) ([a-z]+), of an open boundary", text)
+    assert radii and all(unit == "mm" for _, unit in radii), radii
+
+
+def test_page_opens_with_how_to_read_it(review):
+    text = review["page"].read_text(encoding="utf-8")
+    box = text.split('id="reading"', 1)[1].split("</section>", 1)[0]
+    assert text.index('id="reading"') < text.index('id="verdict"')
+    for word in ("breaks", "kinks", "G0", "G1", "G2", "Heatmaps", "Reflection lines"):
+        assert word in box
 
 
 def test_result_json_is_the_grade_document(review):
@@ -149,7 +170,7 @@ def test_chromium_loads_every_picture(review, browser, tmp_path):
         "});</script></body></html>", encoding="utf-8")
     run = browser("--allow-file-access-from-files", "--virtual-time-budget=20000", "--dump-dom", harness.as_uri())
     listing = run.stdout.split('<pre id="out">', 1)[-1].split("</pre>", 1)[0].splitlines()
-    assert listing[0] == "images 8", run.stdout[-2000:] + run.stderr[-2000:]
+    assert listing[0] == "images 10", run.stdout[-2000:] + run.stderr[-2000:]
     assert all(line.startswith("loaded ") for line in listing[1:]), listing
 
 

@@ -3,7 +3,7 @@
     P(u, t) = (1 - phi(t)) E_A(u, t S_A(u)) + phi(t) E_B(u, (1 - t) S_B(u)),    t in [0, 1],
 
 where E_A, E_B are the order-K Taylor extensions of each side across its chain (blend_extension), S_A,
-S_B their spans (how far along each extension the patch reaches as t runs across) and phi a smooth step
+S_B their reaches (how far along each extension the patch reaches as t runs across) and phi a smooth step
 (steps). Since phi and its derivatives up to K vanish at t = 0, every derivative of P up to order K at
 t = 0 equals that of E_A, which carries side A's K-jet: P meets A with G^K contact, and B likewise at
 t = 1 (the partition-of-unity argument for smooth gluing, e.g. Tu, An Introduction to Manifolds,
@@ -33,10 +33,10 @@ MAX_ORDER = 3  # the extensions carry tangent, curvature and curvature rate
 FINE_T = 257  # samples per column for the cross arc length
 LEAN_BACK = 0.01  # a section may reach this fraction of the gap behind a side's boundary (from memory)
 MAX_TURN_PER_EDGE = 0.5  # radians a section may turn over one edge length and still be shown (from memory)
-# Default row spacing across the gap: at most the shortest span / ROWS_PER_SPAN. The patch's curvature
-# rises to half its peak within about an eighth of the span from each seam; measured on the demo gap
-# (docs/blend.md), 100 rows per span let the grader read G3 there, 60 do not.
-ROWS_PER_SPAN = 100
+# Default row spacing across the gap: at most the shortest reach / ROWS_PER_REACH. The patch's curvature
+# rises to half its peak within about an eighth of the reach from each seam; measured on the demo gap
+# (docs/blend.md), 100 rows per reach let the grader read G3 there, 60 do not.
+ROWS_PER_REACH = 100
 MAX_ROW_REFINEMENT = 4.0  # ... but rows no closer than the chains' edges / this (bounds the triangle count)
 
 
@@ -46,21 +46,21 @@ class BlendSurface:
 
     side_a: Extension
     side_b: Extension
-    span_a: np.ndarray
-    span_b: np.ndarray
+    reach_a: np.ndarray
+    reach_b: np.ndarray
     step: str
     order: int
 
     def derivative(self, t, n: int = 0) -> np.ndarray:
         """d^n P / dt^n at t (shape (..., columns) or broadcastable) -> (..., columns, 3)."""
-        t = np.broadcast_to(np.asarray(t, dtype=np.float64), np.broadcast_shapes(np.shape(t), self.span_a.shape))
+        t = np.broadcast_to(np.asarray(t, dtype=np.float64), np.broadcast_shapes(np.shape(t), self.reach_a.shape))
         total = np.zeros(t.shape + (3,))
         for j in range(n + 1):
             phi = smooth_step(t, self.step, self.order, j)[..., None]
             keep = (1.0 - phi) if j == 0 else -phi
             m = n - j
-            e_a = self.side_a.derivative(t * self.span_a, m) * (self.span_a**m)[:, None]
-            e_b = self.side_b.derivative((1.0 - t) * self.span_b, m) * ((-self.span_b) ** m)[:, None]
+            e_a = self.side_a.derivative(t * self.reach_a, m) * (self.reach_a**m)[:, None]
+            e_b = self.side_b.derivative((1.0 - t) * self.reach_b, m) * ((-self.reach_b) ** m)[:, None]
             total += comb(n, j) * (keep * e_a + phi * e_b)
         return total
 
@@ -91,7 +91,7 @@ class BlendResult:
 
 
 def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, order: int, step: str = "hermite",
-                span: float | None = None, resolution: float | None = None) -> BlendResult:
+                reach: float | None = None, resolution: float | None = None) -> BlendResult:
     """A patch joining chain A of part A to chain B of part B with G^order contact on both.
 
     ``step`` is the smooth step's kind, of order ``order`` (steps.KINDS). The default is the hermite
@@ -100,10 +100,10 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     exponentially flat near the seams and then rise steeply, so its contact is exact yet rarely
     resolvable on a practical mesh (docs/blend.md).
 
-    ``span`` fixes both extensions' reach (part units); by default it is chosen per column from the
-    gap and the turn (see default_spans). ``resolution`` is the target edge length. By default the
+    ``reach`` fixes both extensions' reach (part units); by default it is chosen per column from the
+    gap and the turn (see default_reaches). ``resolution`` is the target edge length. By default the
     columns are the median edge length of the two chains apart, and the rows that or, where closer, the
-    shortest span / ROWS_PER_SPAN (not below the chains' edge / MAX_ROW_REFINEMENT): enough rows across
+    shortest reach / ROWS_PER_REACH (not below the chains' edge / MAX_ROW_REFINEMENT): enough rows across
     the patch's curvature build-up at each seam for the mesh grader to read the order (docs/blend.md).
 
     Parameters
@@ -116,7 +116,7 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
         Contact order 0..3 at both chains.
     step : str
         Smooth step kind (steps.KINDS).
-    span : float, optional
+    reach : float, optional
         Extension reach, part units.
     resolution : float, optional
         Target edge length, part units.
@@ -126,7 +126,7 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     BlendResult
         The patch mesh, its surface and the chain correspondence.
     """
-    _check_request(part_a, chain_a, part_b, chain_b, order, step, span, resolution)
+    _check_request(part_a, chain_a, part_b, chain_b, order, step, reach, resolution)
     if part_a.units != part_b.units:
         raise InputError(f"the parts are in different units ({part_a.units}, {part_b.units}); convert one first")
     mapping = match_chains(chain_a.points, chain_a.closed, chain_b.points, chain_b.closed)
@@ -141,12 +141,12 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
         where = float(u[np.argmin(gap)] * chain_a.length)
         raise InputError(f"chains {chain_a.id} and {chain_b.id} touch {where:.4g} {part_a.units} along "
                          f"{chain_a.id}; there is no gap to bridge")
-    if span is None:
-        span_a, span_b = default_spans(side_a, side_b)
+    if reach is None:
+        reach_a, reach_b = default_reaches(side_a, side_b)
     else:
-        span_a = span_b = np.full(columns, float(span))
-    surface = BlendSurface(side_a, side_b, span_a, span_b, step, order)
-    row_spacing = resolution or float(np.clip(min(span_a.min(), span_b.min()) / ROWS_PER_SPAN,
+        reach_a = reach_b = np.full(columns, float(reach))
+    surface = BlendSurface(side_a, side_b, reach_a, reach_b, step, order)
+    row_spacing = resolution or float(np.clip(min(reach_a.min(), reach_b.min()) / ROWS_PER_REACH,
                                               spacing / MAX_ROW_REFINEMENT, spacing))
     fine_t = np.linspace(0.0, 1.0, FINE_T)
     columns_fine = surface.derivative(fine_t[:, None])  # (FINE_T, columns, 3)
@@ -166,11 +166,11 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
                        tuple(problems))
 
 
-def default_spans(side_a: Extension, side_b: Extension) -> tuple[np.ndarray, np.ndarray]:
-    """Per-column spans from the gap and the turn the patch must make (see docs/blend.md).
+def default_reaches(side_a: Extension, side_b: Extension) -> tuple[np.ndarray, np.ndarray]:
+    """Per-column reaches from the gap and the turn the patch must make (see docs/blend.md).
 
     Where the two cross-direction lines p_A + r D_A and p_B + r' D_B pass closest ahead of both chains
-    (a corner, r, r' > 0) the span is the distance to it, so each extension runs toward the corner like
+    (a corner, r, r' > 0) the reach is the distance to it, so each extension runs toward the corner like
     the legs of a fillet; it never exceeds the gap's projection on the cross direction (a plain offset
     step then is exactly the graph of the step), and it is at least gap * sin^2(turn / 2), which opens
     a U-turn to about a half circle.
@@ -188,12 +188,12 @@ def default_spans(side_a: Extension, side_b: Extension) -> tuple[np.ndarray, np.
     r_a, r_b = np.where(ahead, r_a, np.inf), np.where(ahead, r_b, np.inf)
     opening = gap * 0.5 * (1.0 + cos_ab)  # gap * sin^2(turn / 2), turn = angle(D_A, -D_B)
     floor = 0.1 * gap
-    span_a = np.maximum(np.maximum(np.minimum(r_a, e_a), opening), floor)
-    span_b = np.maximum(np.maximum(np.minimum(r_b, e_b), opening), floor)
-    return span_a, span_b
+    reach_a = np.maximum(np.maximum(np.minimum(r_a, e_a), opening), floor)
+    reach_b = np.maximum(np.maximum(np.minimum(r_b, e_b), opening), floor)
+    return reach_a, reach_b
 
 
-def _check_request(part_a, chain_a, part_b, chain_b, order, step, span, resolution) -> None:
+def _check_request(part_a, chain_a, part_b, chain_b, order, step, reach, resolution) -> None:
     if not (isinstance(order, (int, np.integer)) and 1 <= order <= MAX_ORDER):
         raise InputError(f"blend order must be 1, 2 or 3 (G1..G3), not {order!r}: the extensions carry "
                          "tangent, curvature and curvature rate only")
@@ -208,7 +208,7 @@ def _check_request(part_a, chain_a, part_b, chain_b, order, step, span, resoluti
     if same_part and (chain_a.id == chain_b.id or np.intersect1d(chain_a.vertices, chain_b.vertices).size):
         raise InputError(f"the two chains ({chain_a.id}, {chain_b.id}) are the same or share vertices; "
                          "pick two different boundary chains")
-    for value, name in ((span, "span"), (resolution, "resolution")):
+    for value, name in ((reach, "reach"), (resolution, "resolution")):
         if value is not None and not (np.isfinite(value) and value > 0):
             raise InputError(f"{name} must be a positive length, not {value!r}")
 
@@ -297,15 +297,15 @@ def _where(surface: BlendSurface, chain_a: Curve, u: np.ndarray, at: float, unit
 
 
 def _folds_over(where: str) -> str:
-    return (f"the patch folds over near {where}: the gap is too short for that turn or the span too long "
-            "(widen the gap or set a shorter --span)")
+    return (f"the patch folds over near {where}: the gap is too short for that turn or the reach too long "
+            "(widen the gap or set a shorter --reach)")
 
 
 def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve, u: np.ndarray, units: str,
                      spacing: float) -> list[str]:
     """Problems seen on the analytic cross sections: a section that turns back on itself (fold), one
     that bends tighter than the mesh can show (a gap too short for its turn), or one that reaches back
-    behind either side's boundary (a span too long for the gap)."""
+    behind either side's boundary (a reach too long for the gap)."""
     problems = []
     seg = np.diff(samples, axis=0)
     folds = np.sum(seg[1:] * seg[:-1], axis=2) <= 0.0
@@ -321,8 +321,8 @@ def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve,
             c = int(np.argmax(bend.max(axis=0)))
             problems.append(f"the patch bends too tightly near {_where(surface, chain_a, u, u[c], units)}: radius "
                             f"{1.0 / bend[:, c].max():.3g} {units} under {spacing:.3g} {units} triangles; the gap "
-                            "is too short for the turn or the span too long (widen the gap, refine the mesh or "
-                            "set a shorter --span)")
+                            "is too short for the turn or the reach too long (widen the gap, refine the mesh or "
+                            "set a shorter --reach)")
     gap = np.linalg.norm(surface.side_b.p - surface.side_a.p, axis=1)
     behind_a = np.einsum("tcj,cj->tc", samples - surface.side_a.p, surface.side_a.D).min(axis=0)
     behind_b = np.einsum("tcj,cj->tc", samples - surface.side_b.p, surface.side_b.D).min(axis=0)
@@ -330,7 +330,7 @@ def _column_problems(samples: np.ndarray, surface: BlendSurface, chain_a: Curve,
     if behind.any():
         c = int(np.flatnonzero(behind)[0])
         problems.append(f"the patch leans back behind a side's boundary near {_where(surface, chain_a, u, u[c], units)}"
-                        ": the span is too long for the gap (set a shorter --span)")
+                        ": the reach is too long for the gap (set a shorter --reach)")
     return problems
 
 

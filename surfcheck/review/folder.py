@@ -3,8 +3,10 @@ DIR/result.json, the document `grade --json` prints (grading.document.run_docume
 drawn from the GradeRun: the stations, sections and side fits shown are the ones that were graded.
 
 Pictures: per seam, the curvature-jump field facing the seam with the seam coloured by its
-per-station result (whole part and a close-up at the governing station), the curvature profile across
-it at its worst stations and G0..G3 along it (plots.py); for the whole part, the jump heatmaps.
+per-station result (whole part and a close-up at the governing station), its reflection lines
+(geometry/reflection.py, lights chosen for the seam), the curvature profile across
+it at its worst stations and G0..G3 along it (plots.py); for the whole part, the jump heatmaps and
+DIR/part-3d.html, the part to turn in the browser (view3d.py).
 """
 
 from __future__ import annotations
@@ -36,9 +38,10 @@ PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
 SEAM_QUANTITY = "jump"  # the field under each seam's picture
 CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam
 PAGE_FILE, RESULT_FILE = "index.html", "result.json"
-FIXED_FILES = (PAGE_FILE, RESULT_FILE)  # the names a review folder always holds, beside its pictures
+VIEW_FILE = "part-3d.html"  # the interactive view, when trame-vtk is installed
+FIXED_FILES = (PAGE_FILE, RESULT_FILE, VIEW_FILE)  # the names a review folder holds, beside its pictures
 OWN_FILES = (*FIXED_FILES, "*.png")  # all it holds: a folder with anything else is not replaced
-LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib")
+LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib", "trame-vtk")
 
 
 def station_statuses(grade: SeamGrade, upto: int) -> tuple[Status, ...]:
@@ -91,10 +94,26 @@ def without_boundary_band(part: Part, field: VertexField) -> VertexField:
     return replace(field, values=np.where(band, np.nan, field.values))
 
 
-def _grey(field: VertexField) -> str:
+def seam_reflection(V: np.ndarray, normals: np.ndarray, seam_points: np.ndarray, centre: np.ndarray,
+                    reach: float):
+    """The reflection-line parameter at every vertex for lights chosen for one seam (reflection.
+    choose_lights: from the normals within ``reach`` of the seam, its direction and ``centre``), and
+    those lights."""
+    from surfcheck.geometry.reflection import choose_lights, reflection_parameter
+    from surfcheck.review.render import principal_axes
+
+    near = _near(V, seam_points, reach)
+    along = principal_axes(seam_points if len(seam_points) > 2 else V[near])[0]
+    lights = choose_lights(V[near], normals[near], along, centre, reach)
+    return reflection_parameter(V, normals, lights), lights
+
+
+def _grey(field: VertexField, units: str) -> str:
+    """The caption's note on the light grey "no value" band, its width (the fits' radius) a length in
+    the part's ``units``."""
     if not np.isnan(field.values).any():
         return ""
-    return (f" Grey: no value (within the fits' radius, {field.radius:.2g} {field.unit.split('/')[-1]}, of an open"
+    return (f" Light grey: no value (within the fits' radius, {field.radius:.2g} {units}, of an open"
             " boundary).")
 
 
@@ -180,7 +199,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
     name = Path(part.source).name or "part"
     part_pictures: list[Picture] = []
     seam_pictures: dict[str, list[Picture]] = {}
-    with replaced_folder(folder, OWN_FILES) as out, _Steps(2 + len(PART_QUANTITIES) + 3 * len(grades), quiet) as steps:
+    with replaced_folder(folder, OWN_FILES) as out, _Steps(2 + len(PART_QUANTITIES) + 4 * len(grades), quiet) as steps:
         fields = {q: without_boundary_band(part, f)
                   for q, f in vertex_fields(part, dict.fromkeys([*PART_QUANTITIES, SEAM_QUANTITY])).items()}
         curvature = principal_curvatures(V, F)
@@ -195,9 +214,10 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
                          title=f"{f.description}: {name}")
             part_pictures.append(Picture(file, f"{f.description} [{f.unit}] over the whole part, from the side"
                                          " that shows most of it and from the other side; seams coloured by"
-                                         f" their per-station result up to {'/'.join(shown)}.{_grey(f)}",
+                                         f" their per-station result up to {'/'.join(shown)}.{_grey(f, part.units)}",
                                          f"{quantity} heatmap of the whole part"))
             steps.advance(quantity)
+        interactive = _interactive_view(part, fields[SEAM_QUANTITY], overlays, out)
         for seam, overlay in zip(graded, overlays):
             curve, grade = seam.curve, seam.grade
             pictures = seam_pictures.setdefault(grade.id, [])
@@ -208,17 +228,37 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
             stem = _file_name(grade.id)
             radius = CLOSE_UP_EDGES * edge
             near = _near(V, curve.points, radius)
+            views = seam_views(V, F, curve.points, focus, radius, grade.id)
             render_field(V, F, f.values, out / f"{stem}-map.png", quantity=SEAM_QUANTITY, unit=f.unit,
                          signed=f.signed, seams=[overlay], limits=colour_limits(f.values[near], f.signed),
                          limits_rule=limits_text(f.signed, f"within {radius:.3g} {part.units} of {grade.id}"),
-                         views=seam_views(V, F, curve.points, focus, radius, grade.id),
+                         views=views,
                          title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}) over the {f.description}")
             pictures.append(Picture(f"{stem}-map.png", f"{f.description} [{f.unit}] around {grade.id}, facing it;"
                                     f" close-up at the governing station of {ORDERS[order]}. Tube: the seam; balls: the stations'"
                                     " seam points as graded (after the transition search); both coloured by the"
-                                    f" result up to {ORDERS[order]} per station.{_grey(f)}",
+                                    f" result up to {ORDERS[order]} per station.{_grey(f, part.units)}",
                                     f"{grade.id} over the {SEAM_QUANTITY} heatmap"))
             steps.advance(f"{grade.id} picture")
+            lines, lights = seam_reflection(V, curvature.normals, curve.points, focus, radius)
+            shown = lines[near & np.isfinite(lines)]
+            render_field(V, F, lines, out / f"{stem}-reflection.png", quantity="reflection", unit=part.units,
+                         signed=False, seams=[overlay], views=views, stripes=lights.spacing,
+                         limits=colour_limits(shown, False),
+                         title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}): reflection lines")
+            pictures.append(Picture(f"{stem}-reflection.png", f"Reflection lines near {grade.id}: the part as a"
+                                    " mirror of parallel light lines"
+                                    f" {lights.spacing:.3g} {part.units} apart in a plane {radius:.3g} {part.units}"
+                                    " above the seam, seen from above it, from the smoothed (jet-fit) normals;"
+                                    f" stripes within {radius:.3g} {part.units} of the seam. A stripe that breaks"
+                                    " at the seam: the normals jump (G0 at most); one that kinks: the curvature"
+                                    " jumps (G1, not G2); one that bends on smoothly: G2 or better. The jet fits"
+                                    f" round a break or a kink off over their radius ({curvature.radius:.2g}"
+                                    f" {part.units}) each side. Light grey: the surface mirrors no light line"
+                                    " there (it turns more than about 45 deg from the seam's mean normal, as the"
+                                    " faces of a right-angled crease do) or lies outside the stripes shown.",
+                                    f"{grade.id} reflection lines"))
+            steps.advance(f"{grade.id} reflection lines")
             plot_along_seam(grade, out / f"{stem}-along.png", coverage=profile.coverage)
             pictures.append(Picture(f"{stem}-along.png", f"G0..G3 at each station along {grade.id} against the"
                                     " tolerance (shaded: within tolerance).", f"{grade.id} G0 to G3 along the seam"))
@@ -232,10 +272,24 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
         context = {"surfcheck": __version__, "libraries": _library_versions(),
                    "written": datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")}
         notes = _notes(document)
-        page = review_page(document, summary, part_pictures, seam_pictures, context, notes)
+        page = review_page(document, summary, part_pictures, seam_pictures, context, notes, interactive)
         write_atomic(out / PAGE_FILE, page.encode("utf-8"))
         steps.advance("page")
     return folder / PAGE_FILE
+
+
+def _interactive_view(part: Part, field: VertexField, overlays: list, out: Path) -> str | None:
+    """Write the part's interactive 3D view (view3d.py) coloured by ``field`` with the seams; its file
+    name, or None when trame-vtk is not installed."""
+    from surfcheck.review import view3d
+    from surfcheck.review.render import colour_limits, overview_views
+
+    if not view3d.available():
+        return None
+    view3d.write_view(part.vertices, part.faces, field.values, out / VIEW_FILE, seams=overlays,
+                      limits=colour_limits(field.values, field.signed),
+                      view=overview_views(part.vertices, part.faces)[0])
+    return VIEW_FILE
 
 
 def _notes(document: dict) -> list[str]:

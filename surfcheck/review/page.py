@@ -18,7 +18,7 @@ table { border-collapse: collapse; margin: 8px 0 14px; font-size: 0.93em; }
 th, td { border: 1px solid #d0d4da; padding: 3px 8px; text-align: left; vertical-align: top; }
 th { background: #f1f3f5; } td.num { text-align: right; font-variant-numeric: tabular-nums; }
 .ok { color: #137a69; font-weight: 600; } .fail { color: #b0172c; font-weight: 600; }
-.not-resolved { color: #5f6368; font-weight: 600; } .none { color: #5f6368; }
+.not-resolved { color: #3c4043; font-weight: 600; } .none { color: #80868b; font-style: italic; }
 .verdict { font-size: 1.25em; padding: 8px 14px; border-radius: 6px; display: inline-block; margin: 6px 0; }
 .verdict.pass { background: #e3f4ef; color: #137a69; } .verdict.fail { background: #fbe5e8; color: #b0172c; }
 .verdict.no-requirement { background: #eef0f2; color: #3c4043; }
@@ -28,7 +28,30 @@ nav ul { columns: 3; padding-left: 18px; } .caution { background: #fff7e0; borde
   padding: 8px 12px; margin: 18px 0; } .small { font-size: 0.88em; color: #3c4043; }
 details summary { cursor: pointer; color: #0b57a4; }
 .advice { background: #eef4fb; border-left: 4px solid #0b57a4; padding: 6px 12px; }
+.reading { background: #f4f6f8; border: 1px solid #d0d4da; border-radius: 6px; padding: 6px 14px; margin: 14px 0; }
+.reading h2 { border: none; margin: 6px 0 2px; font-size: 1.15em; } .reading ul { margin: 4px 0; padding-left: 20px; }
 """
+
+
+# what an option left unset means, as the Parameters table says it
+UNSET = {"stations": "from the seam length", "spacing": "two strip widths (at most 48 stations per seam)",
+         "strip": "from the edge length", "reach": "from the edge length", "nominal": "none",
+         "deflection": "the reader's default (STEP parts only)"}
+READING = (
+    ("Verdict table", "one row per seam: each order G0..G3 ok, fail or not resolved, and the highest order"
+                      " achieved."),
+    ("Heatmaps", "the part coloured by the curvature jump between one-sided surface fits: near zero where the"
+                 " surface is curvature-continuous, a bright line along a seam where its curvature jumps. The"
+                 " seam is drawn as a tube outlined in black, coloured by its result per station."),
+    ("Reflection lines", "each seam's part as if it mirrored a row of parallel light tubes: light and dark"
+                         " stripes computed from the smoothed surface normals. A stripe that breaks (jumps"
+                         " sideways) at the seam marks a crease: the normals jump, the seam is G0 at most. One"
+                         " that runs on but kinks marks a curvature jump: G1, not G2. Stripes that bend"
+                         " smoothly across the seam mean G2 or better."),
+    ("Along the seam", "G0..G3 at each station against the tolerance band."),
+    ("Curvature across", "at the worst stations, each side's one-sided fit and the curvature it reads; the"
+                         " two curvatures meeting at the seam is G2, their slopes meeting is G3."),
+)
 
 
 @dataclass(frozen=True)
@@ -162,6 +185,29 @@ def _seam_section(seam: dict, document: dict, pictures: list[Picture]) -> str:
             f"{todo}{_order_table(seam, coverage)}{_station_table(seam, document['units'])}{figures}</section>")
 
 
+def readable(name: str, value) -> str:
+    """A parameter's value as a person reads it: an unset option says what it defaults to (UNSET), a
+    seam list ['all'] says "all seams", flags say on or off, lists are joined, mappings listed."""
+    if value is None:
+        return UNSET.get(name, "default")
+    if isinstance(value, bool):
+        return "on" if value else "off"
+    if name == "seams" and list(value) == ["all"]:
+        return "all seams"
+    if isinstance(value, float):
+        return f"{value:.4g}"
+    if isinstance(value, (list, tuple)):
+        return ", ".join(readable("", v) for v in value) or "none"
+    if isinstance(value, dict):
+        return "; ".join(f"{k} {readable(k, v)}" for k, v in value.items()) or "none"
+    return str(value)
+
+
+def _reading_box() -> str:
+    items = "".join(f"<li><b>{escape(what)}</b>: {escape(text)}</li>" for what, text in READING)
+    return f'<section class="reading" id="reading"><h2>How to read this page</h2><ul>{items}</ul></section>'
+
+
 def _parameters_section(document: dict, context: dict) -> str:
     tol = document["tolerance"]
     u = escape(tol["units"])
@@ -174,20 +220,26 @@ def _parameters_section(document: dict, context: dict) -> str:
         ["G3 curvature-rate jump", f"{_num(tol['g3_abs'])} 1/{u}<sup>2</sup> or {_num(tol['g3_rel'])} of the larger rate"],
         ["coverage factor k", _num(tol["coverage"])],
     ]
-    rows += [[escape(k), escape(str(v))] for k, v in document["parameters"].items()]
+    rows += [[escape(k), escape(readable(k, v))] for k, v in document["parameters"].items()]
     rows += [[escape(k), escape(str(v))] for k, v in context.items()]
     return ('<section id="parameters"><h2>Parameters and tool</h2>' + _table(None, rows)
             + '<p>The same results as data: <a href="result.json">result.json</a>.</p></section>')
 
 
 def review_page(document: dict, summary: dict, part_pictures: list[Picture], seam_pictures: dict[str, list[Picture]],
-                context: dict, notes: list[str]) -> str:
+                context: dict, notes: list[str], interactive: str | None = None) -> str:
     """The whole page as text. ``context``: extra facts for the parameters table (tool and library
-    versions, time); ``notes``: cautions beyond the document's own."""
+    versions, time); ``notes``: cautions beyond the document's own; ``interactive``: the file of the
+    interactive 3D view beside the page, linked from the whole-part maps."""
     source = escape(document["part"]["source"])
     contents = "".join(f'<li><a href="#{escape(s["id"])}">{escape(s["id"])}: {escape(" | ".join(s["groups"]))}</a></li>'
                        for s in document["seams"])
     maps = "".join(_figure(p) for p in part_pictures)
+    if interactive:
+        href = escape(interactive, quote=True)
+        maps = (f'<p><a href="{href}"><b>Turn the part in 3D</b></a> (opens in the browser, no network needed):'
+                " the curvature-jump field with the seams in their result colours; drag to turn, scroll to"
+                " zoom.</p>" + maps)
     seams = "".join(_seam_section(s, document, seam_pictures.get(s["id"], [])) for s in document["seams"])
     cautions = "".join(f"<p>{escape(n)}</p>" for n in [document["caution"], *notes])
     return (
@@ -197,6 +249,7 @@ def review_page(document: dict, summary: dict, part_pictures: list[Picture], sea
         f"<body><header><h1>Continuity review: {source}</h1>"
         f'<p class="small">surfcheck {escape(document["tool"]["version"])}, tolerance profile'
         f' {escape(document["tolerance"]["name"])}, {len(document["seams"])} seams</p></header>'
+        f"{_reading_box()}"
         f'<div class="caution">{cautions}</div>'
         f'<nav><h2>Contents</h2><ul><li><a href="#verdict">Verdict</a></li><li><a href="#part">Part</a></li>'
         f'<li><a href="#maps">Whole-part maps</a></li>{contents}<li><a href="#parameters">Parameters and tool</a>'

@@ -379,9 +379,11 @@ def _estimate(side: _Side, count: int, end: np.ndarray) -> SideEstimate:
     if not np.isfinite(best).any():
         return _unresolved(end, count)
     values = np.where(np.isfinite(best), vals[win, deg, np.arange(4)], 0.0)
-    noise = np.where(np.isfinite(best), vars_[win, deg, np.arange(4)], np.inf)
+    resolved = np.isfinite(best)
+    noise = np.where(resolved, vars_[win, deg, np.arange(4)], np.inf)
     budget = np.zeros((len(BUDGET), 4))
-    budget[0], budget[1] = noise, np.where(np.isfinite(best), best - noise, 0.0)
+    budget[0] = noise
+    budget[1][resolved] = best[resolved] - noise[resolved]
     return SideEstimate(values, best, deg, windows[win], end, side.ref.direction, count, budget)
 
 

@@ -69,10 +69,13 @@ def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_
     e = summary["edge_length"]
     console.print(f"edge length min {_fmt(e['min'])}, median {_fmt(e['median'])}, mean {_fmt(e['mean'])},"
               f" max {_fmt(e['max'])} {u}")
-    table = Table("group", "triangles", f"area [{u}^2]", title="face groups")
-    for g in summary["groups"]:
+    groups = summary["groups"]
+    table = Table("group", "triangles", f"area [{u}^2]", title=f"face groups ({len(groups)})")
+    for g in groups[:LISTED_GROUPS]:
         table.add_row(g["name"], str(g["faces"]), _fmt(g["area"]))
     console.print(table)
+    if len(groups) > LISTED_GROUPS:
+        console.print(f"... and {len(groups) - LISTED_GROUPS} more groups (every one in --json)")
     d = summary["defects"]
     console.print(f"components {d['components']}, boundary loops {summary['boundary_loops']}"
               f" ({d['boundary_edges']} boundary edges), group seams {summary['group_seams']},"
@@ -147,6 +150,7 @@ SPACING_OPT = typer.Option(None, "--spacing", help="Distance between stations, i
 STRIP_OPT = typer.Option(None, "--strip", help="Half-width of a station's strip along the seam, part units (default from the edge length).")
 REACH_OPT = typer.Option(None, "--reach", help="How far from the seam a section reaches, part units (default from the edge length).")
 SEARCH_OPT = typer.Option(False, "--search", help="On a welded seam, move the split to the transition found along each section.")
+LISTED_GROUPS = 60  # face groups the text output of inspect lists (a file may hold one per triangle)
 METHOD_OPT = typer.Option(None, "--method", help="exact (a STEP part's B-rep faces; its default) or mesh (the triangles; default for meshes).")
 NOMINAL_OPT = typer.Option(None, "--nominal", help="A grouped nominal part: align the scan to it and grade by its group names.")
 

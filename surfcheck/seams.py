@@ -298,19 +298,18 @@ def _touching_seam_edges(part: Part, tolerance: float) -> dict[tuple[int, int], 
     vertices_of = {g: np.unique(part.faces[part.face_group == g]) for g in np.unique(group)}
     out: dict[tuple[int, int], list[np.ndarray]] = {}
     for b in np.unique(group):
+        lower = group < b  # the boundary edges of every group A before B, queried at once
+        if not lower.any():
+            continue
         theirs = half[group == b]
-        samples = _densify(V[theirs[:, 0]], V[theirs[:, 1]], tolerance / 2)
-        tree = cKDTree(samples)
-        for a in np.unique(group):
-            if a >= b:
-                continue
-            mine = half[group == a]
-            near = tree.query(V[mine.reshape(-1)], distance_upper_bound=tolerance)[0].reshape(-1, 2)
-            # an edge with a vertex of B's own faces continues B's boundary where the groups are
-            # welded (the cap edge of a fillet beside a plane's), it does not face B across a gap
-            touching = np.isfinite(near).all(axis=1) & ~np.isin(mine, vertices_of[b]).any(axis=1)
-            if touching.any():
-                out.setdefault((int(a), int(b)), []).append(mine[touching])
+        tree = cKDTree(_densify(V[theirs[:, 0]], V[theirs[:, 1]], tolerance / 2))
+        mine, owner = half[lower], group[lower]
+        near = tree.query(V[mine.reshape(-1)], distance_upper_bound=tolerance)[0].reshape(-1, 2)
+        # an edge with a vertex of B's own faces continues B's boundary where the groups are welded
+        # (the cap edge of a fillet beside a plane's), it does not face B across a gap
+        touching = np.isfinite(near).all(axis=1) & ~np.isin(mine, vertices_of[b]).any(axis=1)
+        for a in np.unique(owner[touching]):
+            out.setdefault((int(a), int(b)), []).append(mine[touching & (owner == a)])
     return {pair: np.vstack(edges) for pair, edges in out.items()}
 
 

@@ -18,6 +18,7 @@ def parse_obj(data: bytes, name: str) -> RawMesh:
     faces: list[tuple[int, int, int]] = []
     groups: list[int] = []
     names: list[str] = []
+    number_of: dict[str, int] = {}  # group name -> its index in names (a file may hold one group per face)
     current = -1
     for number, line in enumerate(text.splitlines(), start=1):
         fields = line.split("#", 1)[0].split()
@@ -36,11 +37,11 @@ def parse_obj(data: bytes, name: str) -> RawMesh:
             if min(index) < 0 or max(index) >= len(vertices):
                 raise InputError(f"{name}: line {number}: a face refers to a vertex not defined before it")
             if current < 0:
-                current = _group_number(names, "part")
+                current = _group_number(names, number_of, "part")
             faces.extend((index[0], index[k], index[k + 1]) for k in range(1, len(index) - 1))
             groups.extend([current] * (len(index) - 2))
         elif tag in ("g", "o"):
-            current = _group_number(names, " ".join(fields[1:]) or "part")
+            current = _group_number(names, number_of, " ".join(fields[1:]) or "part")
     used = sorted(set(groups))
     renumber = np.zeros(max(len(names), 1), dtype=np.int64)
     renumber[used] = np.arange(len(used))
@@ -52,10 +53,11 @@ def parse_obj(data: bytes, name: str) -> RawMesh:
     )
 
 
-def _group_number(names: list[str], group: str) -> int:
-    if group not in names:
+def _group_number(names: list[str], number_of: dict[str, int], group: str) -> int:
+    if group not in number_of:
+        number_of[group] = len(names)
         names.append(group)
-    return names.index(group)
+    return number_of[group]
 
 
 def _numbers(words: list[str], kind: type, name: str, number: int, what: str) -> list:

@@ -160,19 +160,26 @@ def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np
     # as the fourth power of the spacing, so the coarser one's is about 15 times the finer one's
     # (Richardson's estimate; de Boor 1978, ch. V, the error of complete cubic spline interpolation)
     coarse = np.r_[0:len(nodes):2, len(nodes) - 1] if len(nodes) % 2 == 0 else np.r_[0:len(nodes):2]
+    coarse_spline = None
     if len(coarse) >= 4:
-        fine_at = spline(chord)
-        coarse_at = CubicSpline(chord[coarse], nodes[coarse], axis=0, bc_type="not-a-knot")(chord)
-        spread = max(spread, float(np.sqrt(((fine_at - coarse_at) ** 2).sum(axis=1).mean())) / 15.0)
+        coarse_spline = CubicSpline(chord[coarse], nodes[coarse], axis=0, bc_type="not-a-knot")
+        spread = max(spread, float(np.sqrt(((spline(chord) - coarse_spline(chord)) ** 2).sum(axis=1).mean())) / 15.0)
     chords = np.stack([nodes[:-1], nodes[1:]], axis=1)
     consecutive = np.stack([np.arange(len(nodes) - 1), np.arange(1, len(nodes))], axis=1)
     return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * float(chord[-1] / (len(nodes) - 1)),
                       spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, consecutive),
-                      _end_floor(spline, chord, axis))
+                      _end_floor(spline, coarse_spline, chord, axis))
 
 
-def _end_floor(spline, chord: np.ndarray, axis: np.ndarray) -> tuple[float, float, float, float]:
-    """The interpolation's uncertainty of curvature and rate at the seam end (chord 0).
+def _end_floor(spline, coarse, chord: np.ndarray, axis: np.ndarray) -> tuple[float, float, float, float]:
+    """The interpolation's uncertainty of heading, curvature and rate at the seam end (chord 0).
+
+    Heading and curvature first get Richardson's estimate of the end values' interpolation error
+    (``coarse``, the spline through every other node, or None): the error of a cubic spline's
+    derivative of order r goes as the spacing to the power 4 - r (de Boor 1978, ch. V), so the fine
+    spline's is about |fine - coarse| / (2^(4 - r) - 1): / 7 for the tangent, / 3 for the curvature.
+    On an arc fillet sampled at 1.1 mm this is what is left of the end tangent's error (a G1
+    reading of 0.016 degrees with u = 1e-5 before).
 
     Between the seam and the first node the mesh holds no vertex, and a cubic spline's curvature is
     piecewise linear, so at the end (not-a-knot: one cubic over the first two intervals) it
@@ -200,7 +207,21 @@ def _end_floor(spline, chord: np.ndarray, axis: np.ndarray) -> tuple[float, floa
     kappa, _ = _curvature_and_rate(spline, chord[:2], axis)
     change = float(abs(kappa[1] - kappa[0]))
     t1, t2 = float(chord[1]), float(chord[2])
-    return (0.0, 0.0, min(second * t1 * t2 / 2.0, change), min(second * (t1 + t2) / 2.0, change / t1))
+    heading, curvature = _richardson_end(spline, coarse, axis)
+    return (0.0, heading, max(min(second * t1 * t2 / 2.0, change), curvature),
+            min(second * (t1 + t2) / 2.0, change / t1))
+
+
+def _richardson_end(spline, coarse, axis: np.ndarray) -> tuple[float, float]:
+    """Richardson's estimate of the fine spline's error in the end tangent's direction (radians) and
+    the end curvature, from the spline through every other node (``coarse``; zeros without it)."""
+    if coarse is None:
+        return 0.0, 0.0
+    fine_tangent, coarse_tangent = spline(0.0, 1), coarse(0.0, 1)
+    turn = np.arctan2(np.cross(fine_tangent, coarse_tangent) @ axis, fine_tangent @ coarse_tangent)
+    (fine_kappa,), _ = _curvature_and_rate(spline, np.zeros(1), axis)
+    (coarse_kappa,), _ = _curvature_and_rate(coarse, np.zeros(1), axis)
+    return float(abs(turn)) / 7.0, float(abs(fine_kappa - coarse_kappa)) / 3.0
 
 
 def _curvature_and_rate(spline, t: np.ndarray, axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

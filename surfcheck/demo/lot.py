@@ -87,5 +87,6 @@ def run_lot_demo(out: str | Path, nominal: str | Path, say=print) -> dict:
     summary = run_lot([out / "scans"], request, out, force=True).summary()
     yields = ", ".join(f"{s['seam']} {100 * s['yield']:.0f} %" for s in summary["seams"])
     say(f"lot of {summary['parts']} scans through {Path(nominal).name} at {LOT_REQUIREMENT} ({LOT_TOLERANCE} profile):"
-        f" yield {yields}; failing {', '.join(summary['failing']) or 'none'}; lot page {summary['files']['page']}")
+        f" yield {yields}; not shown to meet it: {', '.join(summary['failing']) or 'none'}, of them with a defect"
+        f" shown: {', '.join(summary['defective']) or 'none'}; lot page {summary['files']['page']}")
     return summary

@@ -90,7 +90,7 @@ def _figure(width: float, height: float):
 
 
 def _save(plt, fig, path: str | os.PathLike) -> Path:
-    return save_figure(fig, path, 100)
+    return save_figure(fig, path, 100, tight=True)  # a one-station figure is narrower than its legend
 
 
 def plot_profiles(seam: SeamRun, path: str | os.PathLike, *, coverage: float, curvature=None,

@@ -383,7 +383,7 @@ def _colour_bar(fig, quantity, unit, signed, values, limits, cmap, given, limits
     fig.text(pad / width, 8 / height, stated, fontsize=11, ha="left", va="bottom")
 
 
-def save_figure(fig, path: str | os.PathLike, dpi: int) -> Path:
+def save_figure(fig, path: str | os.PathLike, dpi: int, tight: bool = False) -> Path:
     """Write a matplotlib figure as PNG through the atomic writer (a unique temporary name beside the
     target, renamed into place; nothing half-written is left on failure) and close it.
 
@@ -395,6 +395,9 @@ def save_figure(fig, path: str | os.PathLike, dpi: int) -> Path:
         Where the PNG goes.
     dpi : int
         Resolution of the PNG.
+    tight : bool
+        Grow or crop the canvas to what is drawn (titles, legends and notes outside the axes are never
+        cut off); the pictures of fixed size keep False.
 
     Returns
     -------
@@ -405,7 +408,8 @@ def save_figure(fig, path: str | os.PathLike, dpi: int) -> Path:
 
     buffer = BytesIO()
     try:
-        fig.savefig(buffer, format="png", dpi=dpi, facecolor="white")
+        fig.savefig(buffer, format="png", dpi=dpi, facecolor="white",
+                    **({"bbox_inches": "tight", "pad_inches": 0.15} if tight else {}))
     finally:
         plt.close(fig)
     path = Path(path)

@@ -82,3 +82,25 @@ def test_ids_are_stable_under_face_reordering():
     first = [(c.id, c.length, tuple(c.points[0])) for c in SeamIndex(part).all()]
     second = [(c.id, c.length, tuple(c.points[0])) for c in SeamIndex(shuffled).all()]
     assert first == second
+
+
+@pytest.mark.parametrize("gap", [0.3, 1.5])
+def test_a_named_pair_across_a_gap_is_a_seam_graded_as_a_g0_fail(gap):
+    # a flat strip whose second half is moved `gap` mm along its normal (separate shells): by
+    # construction the two borders face each other across exactly that gap. Beyond the touch
+    # tolerance, `all` does not pair them, but naming them does, and G0 fails with the gap as its value.
+    from surfcheck.demo import shapes as S
+    from surfcheck.grading.run import grade_seam
+    from surfcheck.grading.tolerances import load_profile
+    from tests.fixtures.synthetic import part_and_seams
+
+    profile = S.Profile([S.line(6.0, "left"), S.line(6.0, "right")])
+    mesh = S.extrude(profile, 8.0, 0.4, separate_shells=True, offsets={"right": (0.0, gap, 0.0)})
+    part, _ = part_and_seams(mesh)
+    index = SeamIndex(part)
+    assert not index.seams  # the gap is beyond the touch tolerance: no seam of its own
+    (seam,) = index.find("left:right")
+    assert seam.groups == ("left", "right")
+    g0 = grade_seam(part, seam, load_profile("general")).orders[0]
+    assert g0.status == "fail"
+    assert g0.value == pytest.approx(gap, rel=0.02)  # read to 2 % (common practice, no published source)

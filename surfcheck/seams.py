@@ -65,6 +65,11 @@ def boundary_half_edges(part: Part) -> np.ndarray:
     return part.half_edges[on_boundary]
 
 
+def _grouped_boundary(part: Part) -> tuple[np.ndarray, np.ndarray]:
+    """The boundary half-edges (boundary_half_edges) and the group of each one's triangle."""
+    return boundary_half_edges(part), part.face_group[_boundary_face_of_half_edges(part)]
+
+
 def _boundary_face_of_half_edges(part: Part) -> np.ndarray:
     on_boundary = part.edge_face_count[part.half_edge_edge] == 1
     return np.flatnonzero(on_boundary) // 3
@@ -161,12 +166,12 @@ def gap_seams(part: Part, a: str, b: str) -> list[Curve]:
     not a missing seam). Only for a pair the user names: unnamed, so wide a tolerance would pair
     faces that merely lie near each other. Ids are "A:B"."""
     ia, ib = part.group_index(a), part.group_index(b)
-    wide = NAMED_GAP_EDGES * float(np.median(part.edge_lengths))
+    edge = float(np.median(part.edge_lengths))
     pair = (min(ia, ib), max(ia, ib))
-    edges = _touching_seam_edges(part, wide, pair).get(pair)
+    edges = _touching_seam_edges(part, NAMED_GAP_EDGES * edge, pair).get(pair)
     if edges is None:
         return []
-    edges = edges[_facing(part, edges, pair[1], wide / NAMED_GAP_EDGES / 40.0)]
+    edges = edges[_facing(part, edges, pair[1], edge / 40.0)]
     paths = [(v, closed) for v, closed in _walk_paths(edges) if len(v) >= 2]
     return [Curve(f"{a}:{b}" if len(paths) == 1 else f"{a}:{b}.{k}", "seam", v, part.vertices[v], closed, (a, b))
             for k, (v, closed) in enumerate(paths, start=1)]
@@ -177,8 +182,8 @@ def _facing(part: Part, edges: np.ndarray, other: int, spacing: float) -> np.nda
     nearest point of the other border lies off the edge's line (within FACING_ANGLE of its normal),
     as across a seam, not ahead along it, as from the cap edges that run up to a corner. The other
     border is sampled ``spacing`` apart."""
-    half = boundary_half_edges(part)
-    theirs = half[part.face_group[_boundary_face_of_half_edges(part)] == other]
+    half, group = _grouped_boundary(part)
+    theirs = half[group == other]
     V = part.vertices
     samples = _densify(V[theirs[:, 0]], V[theirs[:, 1]], spacing)
     direction = V[edges[:, 1]] - V[edges[:, 0]]
@@ -330,8 +335,7 @@ def _touching_seam_edges(part: Part, tolerance: float,
     """Boundary edges of group A whose two ends lie within ``tolerance`` of group B's boundary
     (B's boundary densified to points spaced tolerance / 2), keyed (lower group, higher group);
     ``only`` restricts it to that one pair."""
-    half = boundary_half_edges(part)
-    group = part.face_group[_boundary_face_of_half_edges(part)]
+    half, group = _grouped_boundary(part)
     if only is not None:
         keep = np.isin(group, only)
         half, group = half[keep], group[keep]

@@ -351,9 +351,9 @@ def fit_side(points: np.ndarray, end: np.ndarray, sign: float, h: float, floor: 
     # it straddles it), so the estimate is off by up to half their difference; a converged iteration's
     # last step is below a tenth of u and adds nothing that matters
     budget = est.budget.copy()
-    budget[BUDGET.index("iteration")] = np.square(0.5 * step)
-    budget[BUDGET.index("interpolation")] = np.square(end_floor)
-    return replace(est, variances=np.maximum(est.variances + budget[3:].sum(axis=0), rounding), budget=budget)
+    iteration, interpolation = np.square(0.5 * step), np.square(end_floor)
+    budget[BUDGET.index("iteration")], budget[BUDGET.index("interpolation")] = iteration, interpolation
+    return replace(est, variances=np.maximum(est.variances + iteration + interpolation, rounding), budget=budget)
 
 
 def _reference_from(est: SideEstimate, reach: float) -> Reference:

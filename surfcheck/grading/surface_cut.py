@@ -207,19 +207,19 @@ def _end_floor(spline, coarse, chord: np.ndarray, axis: np.ndarray) -> tuple[flo
     kappa, _ = _curvature_and_rate(spline, chord[:2], axis)
     change = float(abs(kappa[1] - kappa[0]))
     t1, t2 = float(chord[1]), float(chord[2])
-    heading, curvature = _richardson_end(spline, coarse, axis)
+    heading, curvature = _richardson_end(spline, coarse, float(kappa[0]), axis)
     return (0.0, heading, max(min(second * t1 * t2 / 2.0, change), curvature),
             min(second * (t1 + t2) / 2.0, change / t1))
 
 
-def _richardson_end(spline, coarse, axis: np.ndarray) -> tuple[float, float]:
+def _richardson_end(spline, coarse, fine_kappa: float, axis: np.ndarray) -> tuple[float, float]:
     """Richardson's estimate of the fine spline's error in the end tangent's direction (radians) and
-    the end curvature, from the spline through every other node (``coarse``; zeros without it)."""
+    the end curvature (``fine_kappa``, the fine spline's), from the spline through every other node
+    (``coarse``; zeros without it)."""
     if coarse is None:
         return 0.0, 0.0
     fine_tangent, coarse_tangent = spline(0.0, 1), coarse(0.0, 1)
     turn = np.arctan2(np.cross(fine_tangent, coarse_tangent) @ axis, fine_tangent @ coarse_tangent)
-    (fine_kappa,), _ = _curvature_and_rate(spline, np.zeros(1), axis)
     (coarse_kappa,), _ = _curvature_and_rate(coarse, np.zeros(1), axis)
     return float(abs(turn)) / 7.0, float(abs(fine_kappa - coarse_kappa)) / 3.0
 

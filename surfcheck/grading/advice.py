@@ -60,8 +60,9 @@ def advise(grade: SeamGrade, coverage: float) -> Advice | None:
     expanded = coverage * summary.uncertainty
     if status == "fail":
         text = (f"{name} fails {at}: {summary.value:.3g}{unit} exceeds {summary.tolerance:.3g}{unit} by more"
-                f" than {grade.fail_coverage:.2g} u = {grade.fail_coverage * summary.uncertainty:.2g}{unit} (the"
-                f" seam's factor over its {len(grade.stations)} stations); it is {DEFECTS[k]}")
+                f" than {grade.fail_coverage:.3g} u = {grade.fail_coverage * summary.uncertainty:.2g}{unit} (the"
+                f" seam's factor over its {len(grade.stations)} station{'' if len(grade.stations) == 1 else 's'});"
+                f" it is {DEFECTS[k]}")
     elif grade.deflection:
         finer = finer_deflection(grade.deflection, summary.value, expanded, summary.tolerance)
         length = f" {grade.units}"

@@ -332,8 +332,10 @@ def render_field(V: np.ndarray, F: np.ndarray, values: np.ndarray, path: str | o
         handles = [Patch(facecolor=c, edgecolor=OUTLINE_COLOUR, label=f"seam {s}") for s, c in STATUS_COLOURS.items()]
         if np.isnan(shown).any():
             handles.append(Patch(facecolor=NO_VALUE_COLOUR, edgecolor="#9aa0a6", label="field: no value"))
+        # two columns once the no-value entry joins: in one, the legend rises into the pictures
         fig.legend(handles=handles, loc="lower right", bbox_to_anchor=(1.0 - pad / width, 30 / height),
-                   fontsize=12, frameon=False, title="result per station", title_fontsize=12)
+                   fontsize=12, frameon=False, title="result per station", title_fontsize=12,
+                   ncols=2 if len(handles) > len(STATUS_COLOURS) else 1)
     return save_figure(fig, path, DPI)
 
 
@@ -355,9 +357,9 @@ def stripe_map(values: np.ndarray, limits: tuple[float, float], spacing: float):
 
 def _stripe_legend(fig, quantity, unit, spacing, finite, pad, width, height) -> None:
     unit = "" if unit == "1" else f" {unit}"
-    text = (f"{quantity}: one dark and one light band per {spacing:.3g}{unit}; a band that breaks at a seam marks"
-            " a jump of the normals, one that kinks a jump of the curvature")
-    fig.text(pad / width, 60 / height, text, fontsize=12, ha="left", va="bottom")
+    text = (f"{quantity}: one dark and one light band per {spacing:.3g}{unit};\na band that breaks at a seam marks"
+            " a jump of the normals, one that kinks a jump of the curvature")  # two lines: clear of the legend
+    fig.text(pad / width, 40 / height, text, fontsize=12, ha="left", va="bottom")
     stated = f"field range {finite.min():.3g} .. {finite.max():.3g}{unit}" if finite.size else "no finite values"
     fig.text(pad / width, 8 / height, stated + "; light grey: no value (or outside the bands shown)", fontsize=11,
              ha="left", va="bottom")
@@ -367,7 +369,7 @@ def _colour_bar(fig, quantity, unit, signed, values, limits, cmap, given, limits
     import matplotlib
     import matplotlib.pyplot as plt
 
-    bar_right = width - pad - (300 if seams else 0)
+    bar_right = width - pad - (420 if seams else 0)  # room for the two-column seam legend
     bar_ax = fig.add_axes([(pad + 30) / width, 82 / height, (bar_right - pad - 60) / width, 30 / height])
     finite = values[np.isfinite(values)]
     mappable = plt.cm.ScalarMappable(norm=matplotlib.colors.Normalize(*limits), cmap=cmap)

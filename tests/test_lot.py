@@ -1,9 +1,10 @@
 """Production lots on a Dask LocalCluster of 2 workers: a generated lot of noisy scans in their own
-poses (demo/lot.py), two with a defect built in, one corrupt file.
+poses (demo/lot.py), three with a defect built in, one corrupt file.
 
 Truth by construction: the flattened blend is a circular arc of curvature k meeting two flat faces
 (a curvature jump of k at both seams); the kinked blend meets the top at a 6 degree corner; the
-other scans are the housing as built (G2 clothoid blends). The lot table is read back with pyarrow
+moved blend is a separate shell lifted SHELL_LIFT_MM along the top's normal (a gap of that size at
+the top and, the wall being parallel to the lift, at the wall's end too); the other scans are the housing as built (G2 clothoid blends). The lot table is read back with pyarrow
 (a reference reader) and compared with each part's result.json.
 """
 
@@ -18,7 +19,7 @@ from pathlib import Path
 
 import pytest
 
-from surfcheck.demo.lot import lot_profile, write_lot
+from surfcheck.demo.lot import SHELL_LIFT_MM, lot_profile, write_lot
 from surfcheck.demo.scenario import housing_part
 from surfcheck.errors import InputError
 from surfcheck.io import save_part
@@ -28,7 +29,7 @@ from surfcheck.lots.run import run_lot
 
 EDGE = 0.8  # mm: coarse parts keep the lot small (about 8,000 triangles a scan)
 SEAMS = ("top:front-blend", "front-blend:front-wall")
-DEFECTIVE = {"scan-02": "flattened-blend", "scan-05": "kinked-blend"}
+DEFECTIVE = {"scan-02": "flattened-blend", "scan-03": "moved-shell", "scan-05": "kinked-blend"}
 
 
 def run_cli(*args: str) -> subprocess.CompletedProcess:
@@ -43,16 +44,17 @@ def lot_arguments(lot: dict, out: Path, *extra: str, parts: Path | None = None) 
 
 @pytest.fixture(scope="module")
 def lot(tmp_path_factory) -> dict:
-    """Six scans (the 2nd flattened, the 5th kinked) and a truncated file, graded once by the CLI."""
+    """Six scans (the 2nd flattened, the 3rd moved, the 5th kinked) and a truncated file, graded once
+    by the CLI."""
     root = tmp_path_factory.mktemp("lot")
     nominal = save_part(housing_part(edge=EDGE), root / "nominal.obj")
     scans = root / "scans"
-    written = write_lot(scans, count=6, defects={2: "flattened-blend", 5: "kinked-blend"}, edge=EDGE)
+    written = write_lot(scans, count=6, defects={int(name[-1]): defect for name, defect in DEFECTIVE.items()}, edge=EDGE)
     whole = written["scan-01.stl"].read_bytes()
     (scans / "corrupt.stl").write_bytes(whole[: len(whole) // 2])
     lot = {"root": root, "nominal": nominal, "scans": scans, "out": root / "out"}
     first = run_cli(*lot_arguments(lot, lot["out"]))
-    assert first.returncode == 1, first.stderr  # two parts fail G2, one is an error row
+    assert first.returncode == 1, first.stderr  # three parts fail G2, one is an error row
     lot["first"] = json.loads(first.stdout)
     return lot
 
@@ -65,8 +67,9 @@ def test_only_the_defective_parts_fail(lot):
     assert set(DEFECTIVE) <= set(summary["failing"])
     assert summary["parts"] == 7 and summary["graded"] == 6
     by_seam = {s["seam"]: s for s in summary["seams"]}
-    # the flattened blend fails both seams, the kinked one its seam with the top: yields at most 4/6, 5/6
-    assert by_seam["top | front-blend"]["meeting"] <= 4 and by_seam["front-blend | front-wall"]["meeting"] <= 5
+    # the flattened and the moved blend fail both seams, the kinked one its seam with the top: yields at
+    # most 3/6 and 4/6
+    assert by_seam["top | front-blend"]["meeting"] <= 3 and by_seam["front-blend | front-wall"]["meeting"] <= 4
 
 
 def test_the_flattened_blend_reads_its_curvature_jump(lot):
@@ -77,6 +80,16 @@ def test_the_flattened_blend_reads_its_curvature_jump(lot):
         g2 = seam["orders"]["G2"]
         assert g2["status"] == "fail"
         assert abs(g2["value"] - k) <= 2 * g2["uncertainty"] + 0.05 * k  # 5 %: the strip fit's bias, from memory
+
+
+def test_the_moved_shell_reads_its_gap_at_both_seams(lot):
+    # a defect of placement is a grade, not an error: the gap is the lift, by construction
+    document = json.loads((lot["out"] / "parts" / "scan-03" / "result.json").read_text())
+    assert len(document["seams"]) == len(SEAMS)
+    for seam in document["seams"]:
+        g0 = seam["orders"]["G0"]
+        assert g0["status"] == "fail" and seam["achieved"] == -1
+        assert abs(g0["value"] - SHELL_LIFT_MM) <= 2 * g0["uncertainty"] + 0.02 * SHELL_LIFT_MM  # 2 %: noise of the border fit, from memory
 
 
 def test_a_corrupt_file_is_an_error_row_and_the_lot_completes(lot):
@@ -205,7 +218,7 @@ def test_the_lot_page(lot):
     worst = page[page.index('id="worst"'):page.index('id="errors"')]
     link = 'href="parts/{}/result.json"'.format
     listed = sorted((f"scan-0{n}" for n in range(1, 7)), key=lambda name: worst.find(link(name)) % len(worst))
-    assert all(link(name) in worst for name in listed) and set(listed[:2]) == set(DEFECTIVE)  # the defects lead
+    assert all(link(name) in worst for name in listed) and set(listed[:len(DEFECTIVE)]) == set(DEFECTIVE)  # the defects lead
     errors = page[page.index('id="errors"'):page.index('id="request"')]
     assert "corrupt.stl" in errors
     # each failing part, and only it, has its own review page (--pages failing), linked from the list

@@ -32,6 +32,7 @@ from surfcheck.demo.housing_brep import write_housing_step
 from surfcheck.grading.exact import EXACT, grade_brep
 from surfcheck.grading.run import grade_part
 from surfcheck.io import read_part, save_part, write_atomic
+from surfcheck.io.weld import weld_vertices
 from surfcheck.part import Part
 from surfcheck.seams import Curve, SeamIndex
 from surfcheck.segmentation.segment import seams_of_segmentation, segment_part
@@ -99,13 +100,18 @@ def housing_profile() -> Profile:
     )
 
 
-def housing_part(source: str = "housing", edge: float = EDGE, skew: float = 0.0, profile: Profile | None = None) -> Part:
+def housing_part(source: str = "housing", edge: float = EDGE, skew: float = 0.0, profile: Profile | None = None,
+                 offsets: dict[str, tuple[float, float, float]] | None = None) -> Part:
     """The nominal shell as a Part with its face groups (or a shell of another ``profile`` with the
-    same piece names)."""
-    mesh = extrude(profile or housing_profile(), DEPTH, edge, skew=skew)
+    same piece names); ``offsets`` moves named pieces off the rest (shapes.extrude), the pieces that
+    still meet welded again, so only the moved ones stand apart."""
+    mesh = extrude(profile or housing_profile(), DEPTH, edge, skew=skew, separate_shells=bool(offsets), offsets=offsets)
+    vertices, faces = mesh.vertices, mesh.faces
+    if offsets:
+        vertices, faces, _ = weld_vertices(vertices, faces)
     names = list(dict.fromkeys(GROUP_OF_PIECE[n] for n in mesh.group_names))
     regroup = np.array([names.index(GROUP_OF_PIECE[n]) for n in mesh.group_names])
-    return Part(mesh.vertices, mesh.faces, regroup[mesh.face_group], tuple(names), "mm", source)
+    return Part(vertices, faces, regroup[mesh.face_group], tuple(names), "mm", source)
 
 
 def scanned_part() -> Part:

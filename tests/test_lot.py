@@ -219,6 +219,8 @@ def test_the_lot_page(lot):
     link = 'href="parts/{}/result.json"'.format
     listed = sorted((f"scan-0{n}" for n in range(1, 7)), key=lambda name: worst.find(link(name)) % len(worst))
     assert all(link(name) in worst for name in listed) and set(listed[:len(DEFECTIVE)]) == set(DEFECTIVE)  # the defects lead
+    rows = {name: worst[worst.find(link(name)):].split("</tr>")[0] for name in listed}
+    assert all(("defect shown" in row) == (name in DEFECTIVE) for name, row in rows.items())
     errors = page[page.index('id="errors"'):page.index('id="request"')]
     assert "corrupt.stl" in errors
     # each failing part, and only it, has its own review page (--pages failing), linked from the list

@@ -1,4 +1,4 @@
-"""The lot page's charts (matplotlib): per seam a run chart of its worst G1 and G2 values over the
+"""The lot page's charts (matplotlib): per seam a run chart of its worst G0, G1 and G2 values over the
 parts in lot order, with the tolerance and the individuals chart's control limits (control.py,
 ISO 7870-2), and a histogram of the same values against the tolerance."""
 
@@ -27,7 +27,7 @@ def _figure(rows: int, columns: int = 1):
 
 
 def plot_run_chart(series: list[SeamSeries], path: str | os.PathLike) -> Path:
-    """One panel per series (G1, G2): the values over the parts in lot order, each point coloured by
+    """One panel per series (G0, G1, G2): the values over the parts in lot order, each point coloured by
     its status, the tolerance (a step line: relative tolerances vary by part), the centre line and
     the control limits of an individuals chart; parts beyond a control limit are named."""
     fig, axes = _figure(len(series))

@@ -64,11 +64,18 @@ def _part_links(name: str, reviewed: set[str]) -> str:
     return f'{shown} (<a href="{folder}/result.json">result</a>)'
 
 
+def _reading(worst: WorstPart) -> str:
+    """Why a part fails: a defect shown, or the requirement only not shown (data that cannot decide)."""
+    if worst.verdict != "fail":
+        return ""
+    return "defect shown" if worst.defect else "requirement not shown (not resolved)"
+
+
 def _worst_table(worst: list[WorstPart], reviewed: set[str]) -> str:
-    rows = [[_part_links(w.part, reviewed), _status(w.verdict), escape(w.seam), escape(w.order), _num(w.value),
-             _num(w.tolerance), _num(w.ratio, 3)] for w in worst]
-    return _table(["part", "verdict", "seam", "order", "worst value", "tolerance", "value / tolerance"], rows,
-                  {4, 5, 6})
+    rows = [[_part_links(w.part, reviewed), _status(w.verdict), escape(_reading(w)), escape(w.seam), escape(w.order),
+             _num(w.value), _num(w.tolerance), _num(w.ratio, 3)] for w in worst]
+    return _table(["part", "verdict", "reading", "seam", "order", "worst value", "tolerance", "value / tolerance"],
+                  rows, {5, 6, 7})
 
 
 def lot_page(summary: dict, seams: list[SeamReview], worst: list[WorstPart], context: dict,

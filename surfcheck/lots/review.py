@@ -1,4 +1,4 @@
-"""Writing the lot page: per seam its run chart and histogram of the worst G1 and G2 values
+"""Writing the lot page: per seam its run chart and histogram of the worst G0, G1 and G2 values
 (charts.py) beside DIR/index.html (page.py)."""
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from surfcheck.lots.store import REVIEW_FOLDER, PartRecord, part_folder
 from surfcheck.lots.yields import seam_yields
 
 PAGE_FILE = "index.html"
-CHARTED_ORDERS = ("G1", "G2")
+CHARTED_ORDERS = ("G0", "G1", "G2")  # G0: a shell moving off its face drifts in the gap alone
 
 
 def write_lot_page(out: Path, records: list[PartRecord], required: int | None, summary: dict,
@@ -49,10 +49,10 @@ def write_lot_page(out: Path, records: list[PartRecord], required: int | None, s
         plot_run_chart(series, out / run_file)
         plot_histogram(series, out / histogram_file)
         pictures = (
-            Picture(run_file, f"{seam.seam}: the worst station's G1 angle and G2 curvature jump of each part, in"
+            Picture(run_file, f"{seam.seam}: the worst station's G0 gap, G1 angle and G2 curvature jump of each part, in"
                     " lot order, coloured by status (green ok, red fail, grey not resolved); red: the tolerance;"
                     " grey: the centre line; dashed: the control limits.", f"{seam.seam} run chart"),
-            Picture(histogram_file, f"{seam.seam}: distribution of the worst G1 and G2 values over the lot, with"
+            Picture(histogram_file, f"{seam.seam}: distribution of the worst G0, G1 and G2 values over the lot, with"
                     " the tolerance.", f"{seam.seam} histogram"),
         )
         limits = {s.order: individuals_limits(s.values) for s in series}

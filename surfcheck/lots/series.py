@@ -11,7 +11,7 @@ import numpy as np
 
 from surfcheck.grading.continuity import ORDERS
 from surfcheck.lots.store import PartRecord
-from surfcheck.lots.yields import part_verdict, seam_name
+from surfcheck.lots.yields import part_verdict, proven_defective, seam_name
 
 
 @dataclass(frozen=True)
@@ -52,10 +52,12 @@ def seam_series(records: list[PartRecord], seam: str, order: str) -> SeamSeries:
 
 @dataclass(frozen=True)
 class WorstPart:
-    """A part's seam and order that stand closest to (or furthest beyond) the tolerance."""
+    """A part's seam and order that stand closest to (or furthest beyond) the tolerance; ``defect``
+    whether the part has an order failing beyond its uncertainty (yields.proven_defective)."""
 
     part: str
     verdict: str
+    defect: bool
     seam: str
     order: str
     value: float
@@ -68,7 +70,7 @@ class WorstPart:
 
 def worst_parts(records: list[PartRecord], required: int | None, count: int = 10) -> list[WorstPart]:
     """The ``count`` parts whose worst value / tolerance is largest, over the orders up to the
-    requirement (all of G0..G3 without one); failing parts first."""
+    requirement (all of G0..G3 without one); parts with a defect shown first, then the other failing ones."""
     upto = ORDERS[: (3 if required is None else required) + 1]
     found = []
     for record in records:
@@ -79,6 +81,7 @@ def worst_parts(records: list[PartRecord], required: int | None, count: int = 10
                       for o in [s["orders"][k]] if o["value"] is not None and o["tolerance"]]
         if candidates:
             _, seam, order, value, tolerance = max(candidates)
-            found.append(WorstPart(record.name, part_verdict(record), seam, order, value, tolerance))
-    found.sort(key=lambda w: (w.verdict != "fail", -w.ratio))
+            found.append(WorstPart(record.name, part_verdict(record), proven_defective(record), seam, order, value,
+                                   tolerance))
+    found.sort(key=lambda w: (not w.defect, w.verdict != "fail", -w.ratio))
     return found[:count]

@@ -178,7 +178,7 @@ def grade(
     On a scan without groups, `--seam auto` segments it into faces and fillets first, and `--nominal`
     labels it from a grouped nominal part. A STEP part is graded on its B-rep faces (exact) unless
     `--method mesh` asks for its tessellation."""
-    from surfcheck.grading.request import GradeRequest, grade_prepared, prepare_part
+    from surfcheck.grading.request import GradeRequest, grade_prepared, prepare_part, review_gradings
     from surfcheck.grading.run import GradeOptions
 
     if report_dir is not None:
@@ -190,16 +190,15 @@ def grade(
                            units, deflection, method, str(nominal) if nominal is not None else None)
     request.profile()  # a bad profile is reported before the part is read
     prepared = prepare_part(part, request, report=report_dir is not None)
-    if prepared.exact and report_dir is not None:
-        raise InputError("--report draws the mesh sections; add --method mesh to grade the tessellation with a report")
 
     def progress(seams):
         return _progress(seams, "grading seams", quiet=as_json)
 
     run, document = grade_prepared(prepared, request, progress)
-    if report_dir is not None:
-        page = write_report(run, request.required, report_dir, parameters=document["parameters"],
-                            summary=part_summary(prepared.loaded), quiet=as_json)
+    if report_dir is not None:  # a STEP part's page draws its tessellation, its exact grades beside
+        drawn, drawn_document, exact = review_gradings(prepared, request, run, document, progress)
+        page = write_report(drawn, request.required, report_dir, parameters=drawn_document["parameters"],
+                            summary=part_summary(prepared.loaded), exact=exact, quiet=as_json)
     if as_json:
         print_json(document)
     else:

@@ -45,6 +45,7 @@ from surfcheck.cad.edges import evaluate_edge, shared_edges
 from surfcheck.cli import app
 from surfcheck.geometry.normalsection import normal_section
 from surfcheck.grading.exact import grade_brep
+from surfcheck.review.agreement import DIFFERS, compare_grades
 from surfcheck.grading.tolerances import load_profile
 from surfcheck.errors import InputError
 from surfcheck.io import read_part
@@ -249,6 +250,44 @@ def test_cli_grades_step_exactly_by_default_and_the_mesh_on_request(kernel_parts
     jsonschema.validate(meshed, grade_document_schema())
     assert {s["method"] for s in meshed["seams"]} == {"mesh"}
     assert meshed["parameters"]["deflection"] == 0.01
+
+
+def test_the_review_of_a_step_part_sets_the_exact_grades_beside_the_mesh(kernel_parts, tmp_path):
+    # the rolling-ball fillet's two seams (face-3 the fillet): G1 with a curvature jump of 1/r by
+    # construction. The page draws the tessellation and sets the exact grades beside it; the mesh may
+    # leave an order not resolved, but never decides it against the exact grade.
+    runner = CliRunner()
+    seams = ["--seam", "face-1:face-3", "--seam", "face-3:face-6"]
+    done = runner.invoke(app, ["grade", str(kernel_parts["fillet"]), *seams, "--deflection", "0.01", "--report",
+                               str(tmp_path / "review"), "--json"])
+    assert done.exit_code == 0, done.output
+    printed = json.loads(done.stdout)
+    exact = json.loads((tmp_path / "review" / "exact.json").read_text())
+    assert {s["method"] for s in printed["seams"]} == {"exact B-rep"} and exact["seams"] == printed["seams"]
+    drawn = json.loads((tmp_path / "review" / "result.json").read_text())
+    assert {s["method"] for s in drawn["seams"]} == {"mesh"}
+    rows = compare_grades(exact, drawn)
+    assert len(rows) == 2 * 4 and {r.seam for r in rows} == {s["id"] for s in exact["seams"]}
+    for row in rows:
+        if row.order == "G2":
+            assert row.exact == pytest.approx(1.0 / RADIUS, rel=1e-9)
+        assert row.reading in ("agrees", "mesh not resolved"), row  # at 0.01 mm the values agree within U
+    page = (tmp_path / "review" / "index.html").read_text()
+    beside = page[page.index('id="agreement"'):page.index('id="part"')]
+    assert beside.count("<td>face-1 | face-3</td>") == 4 and "exact.json" in beside
+
+
+def test_an_order_agrees_within_the_expanded_uncertainty_of_the_difference():
+    # JCGM 100:2008, 5.1: u(a - b)^2 = u(a)^2 + u(b)^2 for independent estimates; k = 2
+    def document(value, u, status):
+        order = {"value": value, "uncertainty": u, "status": status, "unit": "deg"}
+        return {"tolerance": {"coverage": 2.0}, "seams": [{"id": "s", "groups": ["a", "b"], "orders": {"G1": order}}]}
+
+    exact = document(0.0, 0.03, "ok")
+    assert compare_grades(exact, document(0.099, 0.04, "ok"))[0].reading == "agrees"  # 2 * 0.05 = 0.1
+    assert compare_grades(exact, document(0.101, 0.04, "ok"))[0].reading == DIFFERS
+    assert compare_grades(exact, document(0.05, 0.04, "fail"))[0].reading == DIFFERS  # decided against it
+    assert compare_grades(exact, document(0.4, None, "not resolved"))[0].reading == "mesh not resolved"
 
 
 @pytest.mark.parametrize("content", [b"garbage, not a STEP file\n", b"ISO-10303-21;\nHEADER;\n", None])

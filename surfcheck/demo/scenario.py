@@ -192,11 +192,13 @@ def run_demo(out: str | Path, say=print) -> dict:
         say(f"{name}: {summary['vertices']} vertices, {summary['faces']} triangles, {len(summary['groups'])} groups,"
             f" {len(index.seams)} seams, {len(index.chains)} boundary chains")
         _write_json(out / f"{stem}-inspect.json", summary)
+        exact = None
         if loaded.brep is not None:
-            results["grades"][f"{name} (exact)"] = _grade_exact(loaded, index.seams, out / f"{stem}-exact.json", say)
-            say(f"{name}: the kernel's tessellation, graded as a CAD export")
+            results["grades"][f"{name} (exact)"], exact = _grade_exact(loaded, index.seams, out / f"{stem}-exact.json",
+                                                                       say)
+            say(f"{name}: the kernel's tessellation, graded as a CAD export (its page sets the exact grades beside)")
         if index.seams:
-            results["grades"][name] = _grade_and_review(loaded, index.seams, out / f"{stem}-review", say)
+            results["grades"][name] = _grade_and_review(loaded, index.seams, out / f"{stem}-review", say, exact=exact)
         elif name == "housing-scan.stl":  # graded as a scan both ways: through the nominal, and segmented
             grouped = replace(loaded, part=transfer_groups(read_part(samples["housing.obj"]).part, loaded.part))
             say(f"{name}: face groups transferred from housing.obj")
@@ -237,9 +239,10 @@ def _seam_line(seam: dict, built: dict[str, str]) -> str:
 
 
 def _grade_and_review(loaded, seams: list[Curve], folder: Path, say, tolerance: str = "general",
-                      built: dict[str, str] | None = None) -> dict:
+                      built: dict[str, str] | None = None, exact: dict | None = None) -> dict:
     """Grade seams of a grouped sample against a tolerance profile, print one line per seam (with the
-    built groups ``built`` maps its groups to) and write its review page (with result.json)."""
+    built groups ``built`` maps its groups to) and write its review page (with result.json, and the
+    ``exact`` grade document of a STEP sample beside)."""
     part = loaded.part
     profile = load_profile(tolerance).in_units(part.units)
     required = parse_requirement(REVIEW_REQUIREMENT)
@@ -251,14 +254,14 @@ def _grade_and_review(loaded, seams: list[Curve], folder: Path, say, tolerance: 
     parameters = {"seams": ["all"], "nominal": None}
     for seam in run_document(run, required, parameters)["seams"]:
         say(_seam_line(seam, built or {}))
-    page = write_report(run, required, folder, parameters=parameters, summary=part_summary(loaded))
+    page = write_report(run, required, folder, parameters=parameters, summary=part_summary(loaded), exact=exact)
     say(f"  review page {page} ({verdict(grades, required)} for {REVIEW_REQUIREMENT})")
     return {"page": str(page), "verdict": verdict(grades, required), "achieved": {g.id: g.achieved for g in grades}}
 
 
-def _grade_exact(loaded, seams: list[Curve], target: Path, say) -> dict:
+def _grade_exact(loaded, seams: list[Curve], target: Path, say) -> tuple[dict, dict]:
     """Grade a STEP sample's seams exactly on its B-rep faces, print one line per seam and write the
-    grade document to ``target``."""
+    grade document to ``target``; the demo's record of it, and the document."""
     profile = load_profile("general")
     required = parse_requirement(REVIEW_REQUIREMENT)
     run = grade_brep(loaded.part, loaded.brep, seams, profile)
@@ -268,7 +271,7 @@ def _grade_exact(loaded, seams: list[Curve], target: Path, say) -> dict:
         say(_seam_line(seam, {}))
     _write_json(target, document)
     return {"document": str(target), "verdict": document["verdict"],
-            "achieved": {g.id: g.achieved for g in run.grades}}
+            "achieved": {g.id: g.achieved for g in run.grades}}, document
 
 
 def _bridge_gap(path: Path, out: Path, say) -> dict:

@@ -7,7 +7,7 @@ as `grade --json` prints it."""
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from surfcheck.errors import InputError
@@ -135,6 +135,40 @@ def grade_prepared(prepared: PreparedPart, request: GradeRequest, progress=iter)
     parameters = {"seams": list(request.seams), "nominal": request.nominal,
                   "method": EXACT if prepared.exact else "mesh", "deflection": request.deflection, **chosen.notes}
     return run, run_document(run, request.required, parameters)
+
+
+def review_gradings(prepared: PreparedPart, request: GradeRequest, run: GradeRun, document: dict,
+                    progress=iter) -> tuple[GradeRun, dict, dict | None]:
+    """What a review page of a graded part draws: the mesh grading (its sections and fits are the
+    pictures) and, for a STEP part, the exact grading of the same seams to set beside it.
+
+    Parameters
+    ----------
+    prepared : PreparedPart
+        From prepare_part.
+    request : GradeRequest
+        The grading request.
+    run, document : GradeRun, dict
+        The part's grading as grade_prepared returned it (exact or mesh, as requested).
+    progress : callable, optional
+        Wraps the list of seams of the other grading.
+
+    Returns
+    -------
+    tuple of GradeRun, dict and dict or None
+        The mesh grading and its document, and the exact grade document (None for a mesh part, or
+        when no seam has a B-rep edge to grade).
+    """
+    if prepared.loaded.brep is None:
+        return run, document, None
+    if prepared.exact:
+        mesh_run, mesh_document = grade_prepared(replace(prepared, exact=False), request, progress)
+        return mesh_run, mesh_document, document
+    try:
+        exact = grade_prepared(replace(prepared, exact=True), request, progress)[1]
+    except InputError:
+        exact = None  # no requested seam lies on a B-rep edge: the page shows the mesh grades alone
+    return run, document, exact
 
 
 def grade_file(path: str | os.PathLike, request: GradeRequest, nominal: Part | None = None) -> dict:

@@ -38,8 +38,9 @@ PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
 SEAM_QUANTITY = "jump"  # the field under each seam's picture
 CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam
 PAGE_FILE, RESULT_FILE = "index.html", "result.json"
+EXACT_FILE = "exact.json"  # a STEP part's exact B-rep grades, beside the mesh grades the page draws
 VIEW_FILE = "part-3d.html"  # the interactive view, when trame-vtk is installed
-FIXED_FILES = (PAGE_FILE, RESULT_FILE, VIEW_FILE)  # the names a review folder holds, beside its pictures
+FIXED_FILES = (PAGE_FILE, RESULT_FILE, EXACT_FILE, VIEW_FILE)  # the names a review folder holds, beside its pictures
 OWN_FILES = (*FIXED_FILES, "*.png")  # all it holds: a folder with anything else is not replaced
 LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib", "trame-vtk")
 
@@ -160,7 +161,7 @@ class _Steps:
 
 
 def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, parameters: dict | None = None,
-                 summary: dict | None = None, quiet: bool = False) -> Path:
+                 summary: dict | None = None, exact: dict | None = None, quiet: bool = False) -> Path:
     """Write the review of a grading to ``out_dir``: index.html, result.json and the pictures.
 
     Parameters
@@ -177,6 +178,9 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
         The request beside the run's options (seams, nominal, notes), as run_document takes them.
     summary : dict, optional
         summary.part_summary of the loaded part (made from the part alone when not given).
+    exact : dict, optional
+        For a STEP part, the grade document of the same seams graded exactly on its B-rep faces
+        (grading.exact.grade_brep): written as exact.json and set beside the mesh grades on the page.
     quiet : bool
         No progress bar.
 
@@ -269,10 +273,12 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
                                     f"{grade.id} curvature profiles"))
             steps.advance(f"{grade.id} profiles")
         write_atomic(out / RESULT_FILE, (json.dumps(document, indent=2, allow_nan=False) + "\n").encode())
+        if exact is not None:
+            write_atomic(out / EXACT_FILE, (json.dumps(exact, indent=2, allow_nan=False) + "\n").encode())
         context = {"surfcheck": __version__, "libraries": _library_versions(),
                    "written": datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")}
         notes = _notes(document)
-        page = review_page(document, summary, part_pictures, seam_pictures, context, notes, interactive)
+        page = review_page(document, summary, part_pictures, seam_pictures, context, notes, interactive, exact)
         write_atomic(out / PAGE_FILE, page.encode("utf-8"))
         steps.advance("page")
     return folder / PAGE_FILE

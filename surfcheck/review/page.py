@@ -185,6 +185,31 @@ def _seam_section(seam: dict, document: dict, pictures: list[Picture]) -> str:
             f"{todo}{_order_table(seam, coverage)}{_station_table(seam, document['units'])}{figures}</section>")
 
 
+def _agreement_section(exact: dict, document: dict) -> str:
+    """The exact B-rep grades beside the mesh grades of the same seams (agreement.py)."""
+    from surfcheck.review.agreement import DIFFERS, agreement_counts, compare_grades
+
+    rows = compare_grades(exact, document)
+    counts = agreement_counts(rows)
+    achieved = {s["id"]: s["achieved"] for s in exact["seams"]}
+    cells = [[escape(r.seam), escape(" | ".join(r.groups)), escape(r.order), escape(r.unit), _num(r.exact),
+              _status(r.exact_status), _num(r.mesh), _num(r.mesh_expanded, 3), _status(r.mesh_status),
+              f"<b>{escape(r.reading)}</b>" if r.reading == DIFFERS else escape(r.reading)] for r in rows]
+    seams = "; ".join(f"{escape(s['id'])} exact G{achieved[s['id']]}, mesh "
+                      + (f"G{s['achieved']}" if s["achieved"] >= 0 else "none")
+                      for s in document["seams"] if s["id"] in achieved and achieved[s["id"]] >= 0)
+    k = _num(float(document["tolerance"]["coverage"]))
+    return ('<section id="agreement"><h2>Exact B-rep grades beside the mesh grades</h2>'
+            f"<p>The part's B-rep faces graded exactly along each shared edge (from the surfaces' derivatives),"
+            f" beside the grades of its tessellation that this page draws. Of {len(rows)} orders,"
+            f" {counts['agrees']} agree (the values differ by at most k = {k} times the uncertainty of their"
+            f" difference, with the same decision), {counts['differs']} differ, {counts['mesh not resolved']}"
+            f" are not resolved by the mesh. Achieved: {seams or 'none'}.</p>"
+            + _table(["seam", "groups", "order", "unit", "exact value", "exact", "mesh value", f"U (k = {k})", "mesh",
+                      "reading"], cells, {4, 6, 7})
+            + '<p>The exact grades as data: <a href="exact.json">exact.json</a>.</p></section>')
+
+
 def readable(name: str, value) -> str:
     """A parameter's value as a person reads it: an unset option says what it defaults to (UNSET), a
     seam list ['all'] says "all seams", flags say on or off, lists are joined, mappings listed."""
@@ -227,10 +252,11 @@ def _parameters_section(document: dict, context: dict) -> str:
 
 
 def review_page(document: dict, summary: dict, part_pictures: list[Picture], seam_pictures: dict[str, list[Picture]],
-                context: dict, notes: list[str], interactive: str | None = None) -> str:
+                context: dict, notes: list[str], interactive: str | None = None, exact: dict | None = None) -> str:
     """The whole page as text. ``context``: extra facts for the parameters table (tool and library
     versions, time); ``notes``: cautions beyond the document's own; ``interactive``: the file of the
-    interactive 3D view beside the page, linked from the whole-part maps."""
+    interactive 3D view beside the page, linked from the whole-part maps; ``exact``: the grade document
+    of the same seams graded exactly on the part's B-rep faces, shown beside the mesh grades."""
     source = escape(document["part"]["source"])
     contents = "".join(f'<li><a href="#{escape(s["id"])}">{escape(s["id"])}: {escape(" | ".join(s["groups"]))}</a></li>'
                        for s in document["seams"])
@@ -252,9 +278,10 @@ def review_page(document: dict, summary: dict, part_pictures: list[Picture], sea
         f"{_reading_box()}"
         f'<div class="caution">{cautions}</div>'
         f'<nav><h2>Contents</h2><ul><li><a href="#verdict">Verdict</a></li><li><a href="#part">Part</a></li>'
-        f'<li><a href="#maps">Whole-part maps</a></li>{contents}<li><a href="#parameters">Parameters and tool</a>'
+        + ('<li><a href="#agreement">Exact beside mesh</a></li>' if exact else "")
+        + f'<li><a href="#maps">Whole-part maps</a></li>{contents}<li><a href="#parameters">Parameters and tool</a>'
         "</li></ul></nav>"
-        f"{_verdict_section(document)}{_part_section(summary)}"
+        f"{_verdict_section(document)}{_agreement_section(exact, document) if exact else ''}{_part_section(summary)}"
         f'<section id="maps"><h2>Whole-part maps</h2>{maps}</section>{seams}'
         f"{_parameters_section(document, context)}</body></html>\n"
     )

@@ -69,5 +69,7 @@ def plot_histogram(series: list[SeamSeries], path: str | os.PathLike) -> Path:
             ax.legend(fontsize=8)
         ax.set_xlabel(f"worst {s.order} [{s.unit}]")
         ax.set_ylabel("parts")
-        ax.set_title(f"{s.seam}: {s.order}, {len(values)} parts")
+        ax.set_title(f"{s.order}, {len(values)} parts")
+    if series:  # the seam once over the panels: three long titles side by side ran off the figure
+        fig.suptitle(series[0].seam)
     return save_figure(fig, path, DPI)

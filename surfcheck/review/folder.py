@@ -36,10 +36,13 @@ from surfcheck.polyline import cumulative_arc_length
 
 PART_QUANTITIES = ("jump", "tangent-jump")  # whole-part heatmaps
 SEAM_QUANTITY = "jump"  # the field under each seam's picture
-CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam
+CLOSE_UP_EDGES = 16.0  # radius of a seam's close-up, in edge lengths near the seam ...
+CLOSE_UP_SHARE = 0.125  # ... and at most this share of the part's diagonal (a CAD export's long triangles
+# made the close-up the whole part); no published source
 PAGE_FILE, RESULT_FILE = "index.html", "result.json"
 EXACT_FILE = "exact.json"  # a STEP part's exact B-rep grades, beside the mesh grades the page draws
 VIEW_FILE = "part-3d.html"  # the interactive view, when trame-vtk is installed
+STRIPE_SAMPLES = 8  # sub-edges of the stripe pictures' split mesh per light-line spacing; no published source
 FIXED_FILES = (PAGE_FILE, RESULT_FILE, EXACT_FILE, VIEW_FILE)  # the names a review folder holds, beside its pictures
 OWN_FILES = (*FIXED_FILES, "*.png")  # all it holds: a folder with anything else is not replaced
 LIBRARIES = ("numpy", "scipy", "trimesh", "pyvista", "vtk", "matplotlib", "trame-vtk")
@@ -95,18 +98,21 @@ def without_boundary_band(part: Part, field: VertexField) -> VertexField:
     return replace(field, values=np.where(band, np.nan, field.values))
 
 
-def seam_reflection(V: np.ndarray, normals: np.ndarray, seam_points: np.ndarray, centre: np.ndarray,
-                    reach: float):
-    """The reflection-line parameter at every vertex for lights chosen for one seam (reflection.
-    choose_lights: from the normals within ``reach`` of the seam, its direction and ``centre``), and
-    those lights."""
+def seam_reflection(V: np.ndarray, F: np.ndarray, normals: np.ndarray, seam_points: np.ndarray,
+                    centre: np.ndarray, reach: float):
+    """Lights chosen for one seam (reflection.choose_lights: from the normals within ``reach`` of the
+    seam, its direction and ``centre``) and the reflection-line parameter under them on the mesh
+    split for the picture (refine.refine_for_stripes, sub-edges STRIPE_SAMPLES to a light-line
+    spacing): that mesh's vertices, triangles, parameter, and the lights."""
     from surfcheck.geometry.reflection import choose_lights, reflection_parameter
+    from surfcheck.review.refine import refine_for_stripes
     from surfcheck.review.render import principal_axes
 
     near = _near(V, seam_points, reach)
     along = principal_axes(seam_points if len(seam_points) > 2 else V[near])[0]
     lights = choose_lights(V[near], normals[near], along, centre, reach)
-    return reflection_parameter(V, normals, lights), lights
+    split, triangles, blended = refine_for_stripes(V, F, normals, lights.spacing / STRIPE_SAMPLES)
+    return split, triangles, reflection_parameter(split, blended, lights), lights
 
 
 def _grey(field: VertexField, units: str) -> str:
@@ -200,6 +206,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
     document = run_document(run, required, parameters)
     summary = summary or part_summary(LoadResult(part))
     V, F = part.vertices, part.faces
+    diagonal = float(np.linalg.norm(V.max(axis=0) - V.min(axis=0)))
     name = Path(part.source).name or "part"
     part_pictures: list[Picture] = []
     seam_pictures: dict[str, list[Picture]] = {}
@@ -230,7 +237,7 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
             focus = grade.orders[order].worst_position
             f = fields[SEAM_QUANTITY]
             stem = _file_name(grade.id)
-            radius = CLOSE_UP_EDGES * edge
+            radius = min(CLOSE_UP_EDGES * edge, CLOSE_UP_SHARE * diagonal)
             near = _near(V, curve.points, radius)
             views = seam_views(V, F, curve.points, focus, radius, grade.id)
             render_field(V, F, f.values, out / f"{stem}-map.png", quantity=SEAM_QUANTITY, unit=f.unit,
@@ -244,21 +251,25 @@ def write_report(run: GradeRun, required: int | None, out_dir: str | Path, *, pa
                                     f" result up to {ORDERS[order]} per station.{_grey(f, part.units)}",
                                     f"{grade.id} over the {SEAM_QUANTITY} heatmap"))
             steps.advance(f"{grade.id} picture")
-            lines, lights = seam_reflection(V, curvature.normals, curve.points, focus, radius)
-            shown = lines[near & np.isfinite(lines)]
-            render_field(V, F, lines, out / f"{stem}-reflection.png", quantity="reflection", unit=part.units,
+            split, triangles, lines, lights = seam_reflection(V, F, curvature.normals, curve.points, focus, radius)
+            shown = lines[_near(split, curve.points, radius) & np.isfinite(lines)]
+            render_field(split, triangles, lines, out / f"{stem}-reflection.png", quantity="reflection", unit=part.units,
                          signed=False, seams=[overlay], views=views, stripes=lights.spacing,
                          limits=colour_limits(shown, False),
                          title=f"{grade.id} ({grade.groups[0]} | {grade.groups[1]}): reflection lines")
             pictures.append(Picture(f"{stem}-reflection.png", f"Reflection lines near {grade.id}: the part as a"
                                     " mirror of parallel light lines"
                                     f" {lights.spacing:.3g} {part.units} apart in a plane {radius:.3g} {part.units}"
-                                    " above the seam, seen from above it, from the smoothed (jet-fit) normals;"
+                                    " above the seam, seen from above it, from the smoothed (jet-fit) normals,"
+                                    " interpolated across each triangle (long triangles split, so stripes curve"
+                                    " within them as on the surface);"
                                     f" stripes within {radius:.3g} {part.units} of the seam. A stripe that breaks"
                                     " at the seam: the normals jump (G0 at most); one that kinks: the curvature"
                                     " jumps (G1, not G2); one that bends on smoothly: G2 or better. The jet fits"
                                     f" round a break or a kink off over their radius ({curvature.radius:.2g}"
-                                    f" {part.units}) each side. Light grey: the surface mirrors no light line"
+                                    f" {part.units}) each side, and on a coarse CAD export, whose faces hold few"
+                                    " vertices, they may bend a smooth seam's stripes into a corner: the grades"
+                                    " decide. Light grey: the surface mirrors no light line"
                                     " there (it turns more than about 45 deg from the seam's mean normal, as the"
                                     " faces of a right-angled crease do) or lies outside the stripes shown.",
                                     f"{grade.id} reflection lines"))

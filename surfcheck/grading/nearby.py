@@ -1,0 +1,111 @@
+"""What a station touches: the vertices, faces and edges of a part near a few given vertices, found
+through the part's cached incidence (vertex to faces) and its vertex KD-tree, never by a pass over the
+whole part, so that a station costs the same on a part of a thousand triangles or of ten million."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from surfcheck.part import Part
+
+
+def rows_of(matrix, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The entries of the given rows of a CSR matrix: (position in ``rows``, column) of each."""
+    rows = np.asarray(rows, dtype=np.int64)
+    start, stop = matrix.indptr[rows], matrix.indptr[rows + 1]
+    counts = stop - start
+    owner = np.repeat(np.arange(len(rows)), counts)
+    offsets = np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
+    return owner, matrix.indices[np.repeat(start, counts) + offsets]
+
+
+def faces_around(part: Part, vertices: np.ndarray) -> np.ndarray:
+    """Sorted indices of the faces that have a corner among ``vertices``."""
+    return np.unique(rows_of(part.vertex_faces, vertices)[1])
+
+
+def in_group(part: Part, vertices: np.ndarray, group: int) -> np.ndarray:
+    """(len(vertices),) whether each vertex is a corner of a face of the group (index ``group``)."""
+    owner, faces = rows_of(part.vertex_faces, vertices)
+    hit = np.zeros(len(vertices), dtype=bool)
+    hit[owner[part.face_group[faces] == group]] = True
+    return hit
+
+
+def vertices_near(part: Part, point: np.ndarray, radius: float) -> np.ndarray:
+    """Sorted indices of the vertices within ``radius`` of ``point``."""
+    return np.sort(np.asarray(part.vertex_tree.query_ball_point(point, radius), dtype=np.int64))
+
+
+def _face_edges(part: Part, faces: np.ndarray) -> np.ndarray:
+    """(3 len(faces),) the faces' edges as keys low * n + high (n vertices), face-major order."""
+    corners = part.faces[faces]
+    ends = np.sort(np.stack([corners, np.roll(corners, -1, axis=1)], axis=2).reshape(-1, 2), axis=1)
+    return ends[:, 0] * part.n_vertices + ends[:, 1]
+
+
+def _edges_of(part: Part, keys: np.ndarray) -> np.ndarray:
+    return np.stack(np.divmod(keys, part.n_vertices), axis=1)
+
+
+def _touches(part: Part, keys: np.ndarray, vertices: np.ndarray) -> np.ndarray:
+    low, high = np.divmod(keys, part.n_vertices)
+    return np.isin(low, vertices) | np.isin(high, vertices)
+
+
+def edges_touching(part: Part, vertices: np.ndarray) -> np.ndarray:
+    """(k, 2) the unique edges (low, high) of the mesh with an end among ``vertices``, in the order of
+    part.edges."""
+    keys = np.unique(_face_edges(part, faces_around(part, vertices)))
+    return _edges_of(part, keys[_touches(part, keys, vertices)])
+
+
+def edges_among(part: Part, vertices: np.ndarray) -> np.ndarray:
+    """(k, 2) the unique edges (low, high) of the mesh with both ends among ``vertices``."""
+    keys = np.unique(_face_edges(part, faces_around(part, vertices)))
+    low, high = np.divmod(keys, part.n_vertices)
+    keep = np.isin(low, vertices) & np.isin(high, vertices)
+    return np.stack([low[keep], high[keep]], axis=1)
+
+
+def group_border(part: Part, vertices: np.ndarray, group: int) -> np.ndarray:
+    """(k, 2) the edges with an end among ``vertices`` on the border of the group (index ``group``):
+    used by one face of the group and no other of it (a mesh boundary) or by faces of the group and of
+    another group. Every face of such an edge has a corner among ``vertices``, so the counts are whole."""
+    faces = faces_around(part, vertices)
+    keys = _face_edges(part, faces)
+    touching = _touches(part, keys, vertices)
+    of_group = np.repeat(part.face_group[faces] == group, 3)[touching]
+    edges, which = np.unique(keys[touching], return_inverse=True)
+    count_in = np.bincount(which, weights=of_group, minlength=len(edges))
+    count_all = np.bincount(which, minlength=len(edges))
+    return _edges_of(part, edges[(count_in >= 1) & ((count_in == 1) | (count_all > count_in))])
+
+
+class FacesNear:
+    """The faces of one group near a seam, and of those the ones whose bounding box meets a ball: a
+    station's cut reads only these (a CAD face's long triangles reach stations none of their corners
+    is near, so the test is on the triangles' boxes, not their corners)."""
+
+    def __init__(self, part: Part, group: int, seam_points: np.ndarray, margin: float) -> None:
+        self.part, self.group = part, group
+        self.seam_points, self.margin = seam_points, margin
+        self._boxes = None
+
+    def _load(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        if self._boxes is None:
+            lo_seam = self.seam_points.min(axis=0) - self.margin
+            hi_seam = self.seam_points.max(axis=0) + self.margin
+            faces = np.flatnonzero(self.part.face_group == self.group)
+            corners = self.part.vertices[self.part.faces[faces]]
+            lo, hi = corners.min(axis=1), corners.max(axis=1)
+            keep = (lo <= hi_seam).all(axis=1) & (hi >= lo_seam).all(axis=1)
+            self._boxes = (faces[keep], lo[keep], hi[keep])
+        return self._boxes
+
+    def within(self, point: np.ndarray, radius: float) -> np.ndarray:
+        """Sorted indices of the group's faces whose bounding box meets the ball of ``radius`` about
+        ``point`` (radius at most the margin given)."""
+        faces, lo, hi = self._load()
+        gap = np.maximum(np.maximum(lo - point, point - hi), 0.0)
+        return faces[np.einsum("ij,ij->i", gap, gap) <= radius * radius]

@@ -147,6 +147,24 @@ class Part:
             (data, (self.faces.reshape(-1), np.repeat(np.arange(m), 3))), shape=(self.n_vertices, m)
         )
 
+    def faces_at(self, vertices: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The faces with a corner at each of the vertices, read from their rows of vertex_faces (no
+        pass over the whole part): (position in ``vertices``, face) of each pair."""
+        vertices = np.asarray(vertices, dtype=np.int64).reshape(-1)
+        incidence = self.vertex_faces
+        start, stop = incidence.indptr[vertices], incidence.indptr[vertices + 1]
+        counts = stop - start
+        owner = np.repeat(np.arange(len(vertices)), counts)
+        entries = np.repeat(start, counts) + np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
+        return owner, incidence.indices[entries].astype(np.int64)
+
+    def touches_group(self, vertices: np.ndarray, group: int) -> np.ndarray:
+        """(len(vertices),) whether each vertex is a corner of a face of the group (index ``group``)."""
+        owner, faces = self.faces_at(vertices)
+        hit = np.zeros(np.size(vertices), dtype=bool)
+        hit[owner[self.face_group[faces] == group]] = True
+        return hit
+
     @cached_property
     def vertex_adjacency(self) -> sp.csr_matrix:
         """(n, n) symmetric sparse adjacency of the mesh's edges."""

@@ -342,7 +342,6 @@ def _touching_seam_edges(part: Part, tolerance: float,
     if len(half) == 0:
         return {}
     V = part.vertices
-    vertices_of = {g: np.unique(part.faces[part.face_group == g]) for g in np.unique(group)}
     out: dict[tuple[int, int], list[np.ndarray]] = {}
     for b in np.unique(group):
         lower = group < b  # the boundary edges of every group A before B, queried at once
@@ -354,7 +353,7 @@ def _touching_seam_edges(part: Part, tolerance: float,
         near = tree.query(V[mine.reshape(-1)], distance_upper_bound=tolerance)[0].reshape(-1, 2)
         # an edge with a vertex of B's own faces continues B's boundary where the groups are welded
         # (the cap edge of a fillet beside a plane's), it does not face B across a gap
-        touching = np.isfinite(near).all(axis=1) & ~np.isin(mine, vertices_of[b]).any(axis=1)
+        touching = np.isfinite(near).all(axis=1) & ~part.touches_group(mine, b).reshape(-1, 2).any(axis=1)
         for a in np.unique(owner[touching]):
             out.setdefault((int(a), int(b)), []).append(mine[touching & (owner == a)])
     return {pair: np.vstack(edges) for pair, edges in out.items()}

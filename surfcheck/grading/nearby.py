@@ -9,27 +9,9 @@ import numpy as np
 from surfcheck.part import Part
 
 
-def rows_of(matrix, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The entries of the given rows of a CSR matrix: (position in ``rows``, column) of each."""
-    rows = np.asarray(rows, dtype=np.int64)
-    start, stop = matrix.indptr[rows], matrix.indptr[rows + 1]
-    counts = stop - start
-    owner = np.repeat(np.arange(len(rows)), counts)
-    offsets = np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
-    return owner, matrix.indices[np.repeat(start, counts) + offsets]
-
-
 def faces_around(part: Part, vertices: np.ndarray) -> np.ndarray:
     """Sorted indices of the faces that have a corner among ``vertices``."""
-    return np.unique(rows_of(part.vertex_faces, vertices)[1])
-
-
-def in_group(part: Part, vertices: np.ndarray, group: int) -> np.ndarray:
-    """(len(vertices),) whether each vertex is a corner of a face of the group (index ``group``)."""
-    owner, faces = rows_of(part.vertex_faces, vertices)
-    hit = np.zeros(len(vertices), dtype=bool)
-    hit[owner[part.face_group[faces] == group]] = True
-    return hit
+    return np.unique(part.faces_at(vertices)[1])
 
 
 def vertices_near(part: Part, point: np.ndarray, radius: float) -> np.ndarray:

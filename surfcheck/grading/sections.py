@@ -23,6 +23,7 @@ from scipy.stats import f as f_dist
 
 from surfcheck.errors import InputError
 from surfcheck.part import Part
+from surfcheck.progress import track
 from surfcheck.seams import Curve
 from surfcheck.polyline import cumulative_arc_length, ring
 from surfcheck.grading import nearby
@@ -166,8 +167,8 @@ def cut_sections(
         raise InputError("the strip width and the reach must be positive lengths")
     # welded: the seam's vertices are shared by both sides (a seam between separate shells lists one
     # side's vertices, whichever side the request names first, so membership of both is the test)
-    welded = bool((nearby.in_group(part, seam.vertices, groups[0])
-                   & nearby.in_group(part, seam.vertices, groups[1])).mean() > 0.5)
+    welded = bool((part.touches_group(seam.vertices, groups[0])
+                   & part.touches_group(seam.vertices, groups[1])).mean() > 0.5)
     polyline = _SeamPolyline(seam.points, seam.closed)
     positions = station_positions(polyline.length, seam.closed, stations, spacing, 2.0 * strip)
     V = part.vertices
@@ -176,7 +177,7 @@ def cut_sections(
     widest = CUT_CONTEXT * np.hypot(reach, strip) * 1.05
     group_faces = [nearby.FacesNear(part, g, seam.points, widest) for g in groups]
     sections = []
-    for index, s in enumerate(positions):
+    for index, s in enumerate(track(positions, f"{seam.id}: cutting sections")):
         # along a tightly curved seam the strip narrows until the seam turns by MAX_STRIP_TURN over it
         turn = polyline.turn_near(s, strip)
         width = max(h, strip * min(1.0, MAX_STRIP_TURN / turn)) if turn > 0 else strip
@@ -185,7 +186,7 @@ def cut_sections(
         mapped = []
         ball = nearby.vertices_near(part, frame.origin, radius)
         for group in groups:
-            near = ball[nearby.in_group(part, ball, group)]
+            near = ball[part.touches_group(ball, group)]
             path = _path_lengths(part, near, frame.origin, GEODESIC_SLACK * radius)
             coords, along, beside = frame.carry(V[near])
             inside = beside & polyline.within(s, along, 0.5 * h) & (np.abs(along) <= width)

@@ -195,7 +195,7 @@ def cut_sections(
             inside &= path <= GEODESIC_SLACK * np.linalg.norm(coords + along[:, None] * frame.tangent, axis=1) + 3.0 * h
             # and a point belongs to this station only if the seam point nearest to it does (on a
             # small loop the far side projects onto the station's tangent line, too)
-            inside &= nearest_seam.offset(V[near], s) <= width + h
+            inside[inside] = nearest_seam.offset(V[near[inside]], s) <= width + h
             mapped.append((near[inside], coords[inside]))
         border_data = mapped[1]  # side B's own vertices: its border is where its data meets the seam
         scale_of, floor_of, end_floor_of, deflection = list(scales), [0.0, 0.0], [(0.0,) * 4] * 2, None

@@ -42,10 +42,21 @@ def edge_table(F: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray, np.ndarra
     """The edges of the triangles F over n vertices: (e, 2) unique undirected edges as (low, high)
     vertex index, (3m,) the edge of each of the half_edges, and (e,) how many faces use each edge (1 on
     a boundary, 2 inside, more where non-manifold)."""
-    ordered = np.sort(half_edges(F), axis=1)
-    unique_keys, inverse = np.unique(ordered[:, 0] * n + ordered[:, 1], return_inverse=True)
-    edges = np.stack(np.divmod(unique_keys, n), axis=1)
-    inverse = inverse.reshape(-1)
+    keys = np.empty((len(F), 3), dtype=np.int64)  # low * n + high of each half edge, one corner at a time
+    for corner in range(3):
+        a, b = F[:, corner], F[:, (corner + 1) % 3]
+        np.add(np.minimum(a, b) * n, np.maximum(a, b), out=keys[:, corner])
+    keys = keys.reshape(-1)
+    order = np.argsort(keys, kind="stable")
+    ordered = keys[order]
+    del keys
+    first = np.empty(len(ordered), dtype=bool)  # where a new edge starts in key order
+    first[:1] = True
+    np.not_equal(ordered[1:], ordered[:-1], out=first[1:])
+    edges = np.stack(np.divmod(ordered[first], n), axis=1)
+    del ordered
+    inverse = np.empty(len(order), dtype=np.int64)
+    inverse[order] = np.cumsum(first) - 1
     return edges, inverse, np.bincount(inverse, minlength=len(edges))
 
 

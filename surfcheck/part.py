@@ -144,6 +144,15 @@ class Part:
         data = np.ones(3 * m, dtype=np.int8)
         return sp.csr_matrix((data, (self.half_edge_edge, faces_of_half)), shape=(len(self.edges), m))
 
+    def two_face_edges(self) -> tuple[np.ndarray, np.ndarray]:
+        """The edges used by exactly two faces, (k,) in the order of ``edges``, and their faces, (k, 2)
+        lower index first, read off the edge table's half edges (no edge-face matrix)."""
+        order = np.argsort(self.half_edge_edge, kind="stable")  # half edges by edge, then by face
+        counts = self.edge_face_count
+        two = np.flatnonzero(counts == 2)
+        first = (np.cumsum(counts) - counts)[two]
+        return two, np.stack([order[first], order[first + 1]], axis=1) // 3
+
     @property
     def edge_face_count(self) -> np.ndarray:
         """(e,) how many faces use each edge: 1 on a boundary, 2 inside, more where non-manifold."""

@@ -318,9 +318,7 @@ def group_seams(part: Part, touch_tolerance: float | None = None) -> list[Curve]
 
 def _shared_seam_edges(part: Part) -> dict[tuple[int, int], np.ndarray]:
     """Edges whose two triangles lie in different groups, by (group, group) pair (lower first)."""
-    interior = np.flatnonzero(part.edge_face_count == 2)
-    incidence = part.edge_faces[interior].tocsr()
-    faces = incidence.indices.reshape(-1, 2)
+    interior, faces = part.two_face_edges()
     groups = np.sort(part.face_group[faces], axis=1)
     differ = groups[:, 0] != groups[:, 1]
     out = {}

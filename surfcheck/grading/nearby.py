@@ -5,6 +5,7 @@ whole part, so that a station costs the same on a part of a thousand triangles o
 from __future__ import annotations
 
 import numpy as np
+import scipy.sparse as sp
 
 from surfcheck.part import Part
 
@@ -42,12 +43,20 @@ def edges_touching(part: Part, vertices: np.ndarray) -> np.ndarray:
     return _edges_of(part, keys[_touches(part, keys, vertices)])
 
 
-def edges_among(part: Part, vertices: np.ndarray) -> np.ndarray:
-    """(k, 2) the unique edges (low, high) of the mesh with both ends among ``vertices``."""
-    keys = np.unique(_face_edges(part, faces_around(part, vertices)))
-    low, high = np.divmod(keys, part.n_vertices)
-    keep = np.isin(low, vertices) & np.isin(high, vertices)
-    return np.stack([low[keep], high[keep]], axis=1)
+def half_edges_among(part: Part, vertices: np.ndarray) -> sp.csr_matrix:
+    """(k, k) the half edges of the mesh between the sorted ``vertices`` (k of them), each once
+    however many faces share it: entry (i, j) where a face runs from vertex i to vertex j. Every
+    edge between two of them is there in one direction at least (undirected, it is the induced
+    subgraph of the mesh's edges)."""
+    owner, faces = part.faces_at(vertices)
+    corners = part.faces[faces]
+    at = np.argmax(corners == vertices[owner][:, None], axis=1)
+    following = corners[np.arange(len(faces)), (at + 1) % 3]
+    column = np.minimum(np.searchsorted(vertices, following), len(vertices) - 1)
+    keep = vertices[column] == following
+    graph = sp.csr_matrix((np.ones(int(keep.sum())), (owner[keep], column[keep])), shape=(len(vertices),) * 2)
+    graph.sum_duplicates()
+    return graph
 
 
 def group_border(part: Part, vertices: np.ndarray, group: int) -> np.ndarray:

@@ -16,7 +16,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.sparse as sp
 from scipy.sparse.csgraph import dijkstra
 from scipy.spatial import cKDTree
 from scipy.stats import f as f_dist
@@ -381,11 +380,10 @@ def _path_lengths(part: Part, vertices: np.ndarray, origin: np.ndarray, limit: f
     subgraph) from the one nearest ``origin``; inf beyond ``limit`` or where not connected."""
     if len(vertices) == 0:
         return np.zeros(0)
-    edges = np.searchsorted(vertices, nearby.edges_among(part, vertices))
-    row, col = np.concatenate([edges[:, 0], edges[:, 1]]), np.concatenate([edges[:, 1], edges[:, 0]])
+    graph = nearby.half_edges_among(part, vertices)
     V = part.vertices
-    lengths = np.linalg.norm(V[vertices[row]] - V[vertices[col]], axis=1)
-    graph = sp.csr_matrix((lengths, (row, col)), shape=(len(vertices), len(vertices)))
+    row = np.repeat(np.arange(len(vertices)), np.diff(graph.indptr))
+    graph.data = np.linalg.norm(V[vertices[row]] - V[vertices[graph.indices]], axis=1)
     start = int(np.argmin(np.linalg.norm(V[vertices] - origin, axis=1)))
     return dijkstra(graph, directed=False, indices=start, limit=limit)
 

@@ -10,6 +10,8 @@ import scipy.sparse as sp
 
 from surfcheck.errors import InputError
 
+CHUNK = 1 << 20  # rows of a per-edge computation held at once
+
 
 def check_mesh_arrays(V: np.ndarray, F: np.ndarray, where: str) -> None:
     """InputError unless V is (n, 3) finite, F is (m, 3) indexing V, and neither is empty."""
@@ -218,9 +220,14 @@ class Part:
 
     @cached_property
     def edge_lengths(self) -> np.ndarray:
-        """(e,) length of each unique edge."""
+        """(e,) length of each unique edge (CHUNK edges at a time: the end points of all of them at
+        once would weigh three times the vertex array)."""
         e = self.edges
-        return np.linalg.norm(self.vertices[e[:, 1]] - self.vertices[e[:, 0]], axis=1)
+        out = np.empty(len(e))
+        for lo in range(0, len(e), CHUNK):
+            part = e[lo:lo + CHUNK]
+            out[lo:lo + CHUNK] = np.linalg.norm(self.vertices[part[:, 1]] - self.vertices[part[:, 0]], axis=1)
+        return out
 
     @property
     def bounds(self) -> np.ndarray:

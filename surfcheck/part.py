@@ -146,15 +146,6 @@ class Part:
         data = np.ones(3 * m, dtype=np.int8)
         return sp.csr_matrix((data, (self.half_edge_edge, faces_of_half)), shape=(len(self.edges), m))
 
-    def two_face_edges(self) -> tuple[np.ndarray, np.ndarray]:
-        """The edges used by exactly two faces, (k,) in the order of ``edges``, and their faces, (k, 2)
-        lower index first, read off the edge table's half edges (no edge-face matrix)."""
-        order = np.argsort(self.half_edge_edge, kind="stable")  # half edges by edge, then by face
-        counts = self.edge_face_count
-        two = np.flatnonzero(counts == 2)
-        first = (np.cumsum(counts) - counts)[two]
-        return two, np.stack([order[first], order[first + 1]], axis=1) // 3
-
     @property
     def edge_face_count(self) -> np.ndarray:
         """(e,) how many faces use each edge: 1 on a boundary, 2 inside, more where non-manifold."""
@@ -186,16 +177,6 @@ class Part:
         hit = np.zeros(np.size(vertices), dtype=bool)
         hit[owner[self.face_group[faces] == group]] = True
         return hit
-
-    @cached_property
-    def vertex_adjacency(self) -> sp.csr_matrix:
-        """(n, n) symmetric sparse adjacency of the mesh's edges."""
-        e = self.edges
-        n = self.n_vertices
-        data = np.ones(2 * len(e), dtype=np.int8)
-        rows = np.concatenate([e[:, 0], e[:, 1]])
-        cols = np.concatenate([e[:, 1], e[:, 0]])
-        return sp.csr_matrix((data, (rows, cols)), shape=(n, n))
 
     @cached_property
     def group_sizes(self) -> np.ndarray:

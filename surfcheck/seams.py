@@ -61,8 +61,9 @@ class Curve:
 
 def boundary_half_edges(part: Part) -> np.ndarray:
     """(b, 2) boundary edges directed as their one triangle runs along them."""
-    on_boundary = part.edge_face_count[part.half_edge_edge] == 1
-    return part.half_edges[on_boundary]
+    half = _boundary_half_edge_indices(part)
+    face, corner = np.divmod(half, 3)
+    return np.stack([part.faces[face, corner], part.faces[face, (corner + 1) % 3]], axis=1)
 
 
 def _grouped_boundary(part: Part) -> tuple[np.ndarray, np.ndarray]:
@@ -70,9 +71,13 @@ def _grouped_boundary(part: Part) -> tuple[np.ndarray, np.ndarray]:
     return boundary_half_edges(part), part.face_group[_boundary_face_of_half_edges(part)]
 
 
+def _boundary_half_edge_indices(part: Part) -> np.ndarray:
+    """Indices (into the face-major half edges, Part.half_edges) of the half edges on the boundary."""
+    return np.flatnonzero(part.edge_face_count[part.half_edge_edge] == 1)
+
+
 def _boundary_face_of_half_edges(part: Part) -> np.ndarray:
-    on_boundary = part.edge_face_count[part.half_edge_edge] == 1
-    return np.flatnonzero(on_boundary) // 3
+    return _boundary_half_edge_indices(part) // 3
 
 
 def _walk_paths(edges: np.ndarray) -> list[tuple[np.ndarray, bool]]:
@@ -318,12 +323,18 @@ def group_seams(part: Part, touch_tolerance: float | None = None) -> list[Curve]
 
 def _shared_seam_edges(part: Part) -> dict[tuple[int, int], np.ndarray]:
     """Edges whose two triangles lie in different groups, by (group, group) pair (lower first)."""
-    interior, faces = part.two_face_edges()
-    groups = np.sort(part.face_group[faces], axis=1)
-    differ = groups[:, 0] != groups[:, 1]
+    # per edge the lowest and highest group of its faces, a corner at a time (no edge-face matrix)
+    corners = part.half_edge_edge.reshape(-1, 3)
+    low = np.full(len(part.edges), len(part.group_names), dtype=np.int64)
+    high = np.full(len(part.edges), -1, dtype=np.int64)
+    for corner in range(3):
+        np.minimum.at(low, corners[:, corner], part.face_group)
+        np.maximum.at(high, corners[:, corner], part.face_group)
+    interior = np.flatnonzero((part.edge_face_count == 2) & (low != high))
+    groups = np.stack([low[interior], high[interior]], axis=1)
     out = {}
-    for pair in np.unique(groups[differ], axis=0):
-        mask = differ & (groups[:, 0] == pair[0]) & (groups[:, 1] == pair[1])
+    for pair in np.unique(groups, axis=0):
+        mask = (groups[:, 0] == pair[0]) & (groups[:, 1] == pair[1])
         out[(int(pair[0]), int(pair[1]))] = part.edges[interior[mask]]
     return out
 

@@ -1,6 +1,7 @@
 """What a station touches: the vertices, faces and edges of a part near a few given vertices, found
 through the part's cached incidence (vertex to faces) and its vertex KD-tree, never by a pass over the
-whole part, so that a station costs the same on a part of a thousand triangles or of ten million."""
+whole part, so that a station costs the same on a part of a thousand triangles or of ten million. (Only
+a sparse CAD side, read from its triangles, looks once per seam at its group's faces: FacesNear.)"""
 
 from __future__ import annotations
 
@@ -74,9 +75,10 @@ def group_border(part: Part, vertices: np.ndarray, group: int) -> np.ndarray:
 
 
 class FacesNear:
-    """The faces of one group near a seam, and of those the ones whose bounding box meets a ball: a
-    station's cut reads only these (a CAD face's long triangles reach stations none of their corners
-    is near, so the test is on the triangles' boxes, not their corners)."""
+    """The faces of one group near a seam (bounding boxes within ``margin`` of the seam's box, found on
+    first need, once per seam), and of those the ones whose box meets a ball: a station's cut reads only
+    these (a CAD face's long triangles reach stations none of their corners is near, so the test is on
+    the triangles' boxes, not their corners)."""
 
     def __init__(self, part: Part, group: int, seam_points: np.ndarray, margin: float) -> None:
         self.part, self.group = part, group

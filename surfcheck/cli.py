@@ -16,6 +16,7 @@ from rich.table import Table
 from surfcheck.errors import InputError, SurfcheckError
 from surfcheck.grading.document import CAUTION
 from surfcheck.io import check_outputs, read_part
+from surfcheck.progress import step, track
 from surfcheck.seams import SeamIndex
 from surfcheck.summary import part_summary
 
@@ -39,6 +40,12 @@ def print_json(document: dict) -> None:
     sys.stdout.write(json.dumps(document, indent=2, allow_nan=False) + "\n")
 
 
+def _read(path: Path, **options):
+    """read_part with a bar on the terminal while the file is read."""
+    with step(f"reading {Path(path).name}"):
+        return read_part(path, **options)
+
+
 def _fmt(x: float) -> str:
     return f"{x:.4g}"
 
@@ -55,7 +62,7 @@ def _groups(names: list[str]) -> str:
 def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT,
             deflection: Optional[float] = DEFLECTION_OPT) -> None:
     """Size, groups, boundaries, edge lengths and defects of a part."""
-    loaded = read_part(part, units=units, deflection=deflection)
+    loaded = _read(part, units=units, deflection=deflection)
     summary = part_summary(loaded)
     if as_json:
         print_json(summary)
@@ -88,7 +95,7 @@ def inspect(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_
 def loops(part: Path = PART_ARG, units: str = UNITS_OPT, as_json: bool = JSON_OPT,
           deflection: Optional[float] = DEFLECTION_OPT) -> None:
     """Every boundary loop, boundary chain and group seam, with the ids other commands take."""
-    index = SeamIndex(read_part(part, units=units, deflection=deflection, command="loops").part)
+    index = SeamIndex(_read(part, units=units, deflection=deflection, command="loops").part)
     document = {
         "loops": [c.to_dict() for c in index.loops],
         "chains": [c.to_dict() for c in index.chains],
@@ -192,13 +199,14 @@ def grade(
     prepared = prepare_part(part, request, report=report_dir is not None)
 
     def progress(seams):
-        return _progress(seams, "grading seams", quiet=as_json)
+        return track(seams, "grading seams")
 
     run, document = grade_prepared(prepared, request, progress)
     if report_dir is not None:  # a STEP part's page draws its tessellation, its exact grades beside
         drawn, drawn_document, exact = review_gradings(prepared, request, run, document, progress)
-        page = write_report(drawn, request.required, report_dir, parameters=drawn_document["parameters"],
-                            summary=part_summary(prepared.loaded), exact=exact, quiet=as_json)
+        with step("writing the review page"):
+            page = write_report(drawn, request.required, report_dir, parameters=drawn_document["parameters"],
+                                summary=part_summary(prepared.loaded), exact=exact, quiet=as_json)
     if as_json:
         print_json(document)
     else:
@@ -332,8 +340,8 @@ def blend(
         raise InputError("blend takes PART, or PART_A PART_B")
     check_outputs([out_patch, merged_file], parts)
     profile = load_profile(tolerance)
-    part_a = read_part(parts[0], units=units, deflection=deflection, command="blend").part
-    part_b = part_a if len(parts) == 1 else read_part(parts[1], units=units, deflection=deflection, command="blend").part
+    part_a = _read(parts[0], units=units, deflection=deflection, command="blend").part
+    part_b = part_a if len(parts) == 1 else _read(parts[1], units=units, deflection=deflection, command="blend").part
     chain_a = _one_chain(SeamIndex(part_a), chain_from, parts[0])
     chain_b = _one_chain(SeamIndex(part_b), chain_to, parts[-1])
     result = build_blend(part_a, chain_a, part_b, chain_b, order, step, reach, resolution)
@@ -377,9 +385,11 @@ def segment(
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
     check_outputs([out_file], [part])
-    loaded = read_part(part, units=units, deflection=deflection, command="segment")
-    segmentation = segment_part(loaded.part, nominal_radius=radius)
-    save_part(segmentation.part, out_file)
+    loaded = _read(part, units=units, deflection=deflection, command="segment")
+    with step("segmenting"):
+        segmentation = segment_part(loaded.part, nominal_radius=radius)
+    with step(f"writing {out_file.name}"):
+        save_part(segmentation.part, out_file)
     document = segmentation.to_json()
     if as_json:
         print_json(document)
@@ -432,13 +442,16 @@ def transfer(
     if out_file.suffix.lower() not in (".obj", ".ply"):
         raise InputError(f"{out_file}: give --out a .obj or .ply name (STL holds no groups)")
     check_outputs([out_file], [nominal, scan])
-    reference = read_part(nominal, units=units, deflection=deflection, command="transfer").part
+    reference = _read(nominal, units=units, deflection=deflection, command="transfer").part
     if len(reference.group_names) < 2:
         raise InputError(f"{nominal}: the nominal part has no face groups to carry over")
-    measured = read_part(scan, units=units, deflection=deflection, command="transfer").part
-    alignment = align(measured, reference)
-    labelled = transfer_groups(reference, measured, alignment)
-    save_part(labelled, out_file)
+    measured = _read(scan, units=units, deflection=deflection, command="transfer").part
+    with step("aligning the scan"):
+        alignment = align(measured, reference)
+    with step("carrying the groups over"):
+        labelled = transfer_groups(reference, measured, alignment)
+    with step(f"writing {out_file.name}"):
+        save_part(labelled, out_file)
     document = {"alignment": alignment.to_json(), "groups": list(labelled.group_names), "out": str(out_file)}
     if as_json:
         print_json(document)
@@ -454,15 +467,6 @@ def _one_chain(index: SeamIndex, spec: str, where: Path):
     if len(found) != 1 or found[0].kind != "chain":
         raise InputError(f"{where}: {spec!r} is not a boundary chain; use a chain-N.K id from `surfcheck loops`")
     return found[0]
-
-
-def _progress(items: list, what: str, quiet: bool):
-    """Items, with a progress bar on a terminal's stderr unless quiet."""
-    from rich.progress import track
-
-    if quiet or not sys.stderr.isatty() or len(items) < 2:
-        return items
-    return track(items, description=what, console=Console(stderr=True), transient=True)
 
 
 @app.command("map")
@@ -484,16 +488,19 @@ def map_field(
         raise InputError(f"{out_file}: give --out a .ply, .csv or .png name")
     check_outputs([out_file], [part])
     lights = _lights(quantity, light, stripes)
-    loaded = read_part(part, units=units, deflection=deflection, command="map")
-    field = vertex_field(loaded.part, quantity, lights=lights)
+    loaded = _read(part, units=units, deflection=deflection, command="map")
+    with step(f"computing the {quantity} field"):
+        field = vertex_field(loaded.part, quantity, lights=lights)
     if suffix == ".png":
         from surfcheck.review.render import render_field
 
-        render_field(loaded.part.vertices, loaded.part.faces, field.values, out_file, quantity=quantity,
-                     unit=field.unit, signed=field.signed, title=f"{field.description}: {part.name}",
-                     stripes=field.stripes)
+        with step(f"rendering {out_file.name}"):
+            render_field(loaded.part.vertices, loaded.part.faces, field.values, out_file, quantity=quantity,
+                         unit=field.unit, signed=field.signed, title=f"{field.description}: {part.name}",
+                         stripes=field.stripes)
     else:
-        save_vertex_field(loaded.part, field.values, quantity, out_file)
+        with step(f"writing {out_file.name}"):
+            save_vertex_field(loaded.part, field.values, quantity, out_file)
     finite = field.values[np.isfinite(field.values)]
     if len(finite) == 0:
         console.print(f"{quantity} \\[{field.unit}]: no vertex has a value (too few neighbours on this part);"

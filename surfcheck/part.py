@@ -10,6 +10,8 @@ import scipy.sparse as sp
 
 from surfcheck.errors import InputError
 
+CHUNK = 1 << 20  # rows of a per-edge computation held at once
+
 
 def check_mesh_arrays(V: np.ndarray, F: np.ndarray, where: str) -> None:
     """InputError unless V is (n, 3) finite, F is (m, 3) indexing V, and neither is empty."""
@@ -42,10 +44,21 @@ def edge_table(F: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray, np.ndarra
     """The edges of the triangles F over n vertices: (e, 2) unique undirected edges as (low, high)
     vertex index, (3m,) the edge of each of the half_edges, and (e,) how many faces use each edge (1 on
     a boundary, 2 inside, more where non-manifold)."""
-    ordered = np.sort(half_edges(F), axis=1)
-    unique_keys, inverse = np.unique(ordered[:, 0] * n + ordered[:, 1], return_inverse=True)
-    edges = np.stack(np.divmod(unique_keys, n), axis=1)
-    inverse = inverse.reshape(-1)
+    keys = np.empty((len(F), 3), dtype=np.int64)  # low * n + high of each half edge, one corner at a time
+    for corner in range(3):
+        a, b = F[:, corner], F[:, (corner + 1) % 3]
+        np.add(np.minimum(a, b) * n, np.maximum(a, b), out=keys[:, corner])
+    keys = keys.reshape(-1)
+    order = np.argsort(keys, kind="stable")
+    ordered = keys[order]
+    del keys
+    first = np.empty(len(ordered), dtype=bool)  # where a new edge starts in key order
+    first[:1] = True
+    np.not_equal(ordered[1:], ordered[:-1], out=first[1:])
+    edges = np.stack(np.divmod(ordered[first], n), axis=1)
+    del ordered
+    inverse = np.empty(len(order), dtype=np.int64)
+    inverse[order] = np.cumsum(first) - 1
     return edges, inverse, np.bincount(inverse, minlength=len(edges))
 
 
@@ -147,15 +160,36 @@ class Part:
             (data, (self.faces.reshape(-1), np.repeat(np.arange(m), 3))), shape=(self.n_vertices, m)
         )
 
+    def faces_at(self, vertices: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The faces with a corner at each of the vertices, read from their rows of vertex_faces (no
+        pass over the whole part): (position in ``vertices``, face) of each pair."""
+        vertices = np.asarray(vertices, dtype=np.int64).reshape(-1)
+        incidence = self.vertex_faces
+        start, stop = incidence.indptr[vertices], incidence.indptr[vertices + 1]
+        counts = stop - start
+        owner = np.repeat(np.arange(len(vertices)), counts)
+        entries = np.repeat(start, counts) + np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
+        return owner, incidence.indices[entries].astype(np.int64)
+
+    def touches_group(self, vertices: np.ndarray, group: int) -> np.ndarray:
+        """(len(vertices),) whether each vertex is a corner of a face of the group (index ``group``)."""
+        owner, faces = self.faces_at(vertices)
+        hit = np.zeros(np.size(vertices), dtype=bool)
+        hit[owner[self.face_group[faces] == group]] = True
+        return hit
+
     @cached_property
-    def vertex_adjacency(self) -> sp.csr_matrix:
-        """(n, n) symmetric sparse adjacency of the mesh's edges."""
-        e = self.edges
-        n = self.n_vertices
-        data = np.ones(2 * len(e), dtype=np.int8)
-        rows = np.concatenate([e[:, 0], e[:, 1]])
-        cols = np.concatenate([e[:, 1], e[:, 0]])
-        return sp.csr_matrix((data, (rows, cols)), shape=(n, n))
+    def group_sizes(self) -> np.ndarray:
+        """(groups,) how many faces each group has."""
+        return np.bincount(self.face_group, minlength=len(self.group_names))
+
+    @cached_property
+    def vertex_tree(self):
+        """A KD-tree of the vertices (scipy.spatial.cKDTree) for ball and nearest-point queries; built
+        unbalanced (twice as fast to build, and a query finds the same points)."""
+        from scipy.spatial import cKDTree
+
+        return cKDTree(self.vertices, balanced_tree=False, compact_nodes=False)
 
     @cached_property
     def face_components(self) -> np.ndarray:
@@ -167,9 +201,14 @@ class Part:
 
     @cached_property
     def edge_lengths(self) -> np.ndarray:
-        """(e,) length of each unique edge."""
+        """(e,) length of each unique edge (CHUNK edges at a time: the end points of all of them at
+        once would weigh three times the vertex array)."""
         e = self.edges
-        return np.linalg.norm(self.vertices[e[:, 1]] - self.vertices[e[:, 0]], axis=1)
+        out = np.empty(len(e))
+        for lo in range(0, len(e), CHUNK):
+            part = e[lo:lo + CHUNK]
+            out[lo:lo + CHUNK] = np.linalg.norm(self.vertices[part[:, 1]] - self.vertices[part[:, 0]], axis=1)
+        return out
 
     @property
     def bounds(self) -> np.ndarray:

@@ -61,8 +61,9 @@ class Curve:
 
 def boundary_half_edges(part: Part) -> np.ndarray:
     """(b, 2) boundary edges directed as their one triangle runs along them."""
-    on_boundary = part.edge_face_count[part.half_edge_edge] == 1
-    return part.half_edges[on_boundary]
+    half = _boundary_half_edge_indices(part)
+    face, corner = np.divmod(half, 3)
+    return np.stack([part.faces[face, corner], part.faces[face, (corner + 1) % 3]], axis=1)
 
 
 def _grouped_boundary(part: Part) -> tuple[np.ndarray, np.ndarray]:
@@ -70,9 +71,13 @@ def _grouped_boundary(part: Part) -> tuple[np.ndarray, np.ndarray]:
     return boundary_half_edges(part), part.face_group[_boundary_face_of_half_edges(part)]
 
 
+def _boundary_half_edge_indices(part: Part) -> np.ndarray:
+    """Indices (into the face-major half edges, Part.half_edges) of the half edges on the boundary."""
+    return np.flatnonzero(part.edge_face_count[part.half_edge_edge] == 1)
+
+
 def _boundary_face_of_half_edges(part: Part) -> np.ndarray:
-    on_boundary = part.edge_face_count[part.half_edge_edge] == 1
-    return np.flatnonzero(on_boundary) // 3
+    return _boundary_half_edge_indices(part) // 3
 
 
 def _walk_paths(edges: np.ndarray) -> list[tuple[np.ndarray, bool]]:
@@ -318,14 +323,18 @@ def group_seams(part: Part, touch_tolerance: float | None = None) -> list[Curve]
 
 def _shared_seam_edges(part: Part) -> dict[tuple[int, int], np.ndarray]:
     """Edges whose two triangles lie in different groups, by (group, group) pair (lower first)."""
-    interior = np.flatnonzero(part.edge_face_count == 2)
-    incidence = part.edge_faces[interior].tocsr()
-    faces = incidence.indices.reshape(-1, 2)
-    groups = np.sort(part.face_group[faces], axis=1)
-    differ = groups[:, 0] != groups[:, 1]
+    # per edge the lowest and highest group of its faces, a corner at a time (no edge-face matrix)
+    corners = part.half_edge_edge.reshape(-1, 3)
+    low = np.full(len(part.edges), len(part.group_names), dtype=np.int64)
+    high = np.full(len(part.edges), -1, dtype=np.int64)
+    for corner in range(3):
+        np.minimum.at(low, corners[:, corner], part.face_group)
+        np.maximum.at(high, corners[:, corner], part.face_group)
+    interior = np.flatnonzero((part.edge_face_count == 2) & (low != high))
+    groups = np.stack([low[interior], high[interior]], axis=1)
     out = {}
-    for pair in np.unique(groups[differ], axis=0):
-        mask = differ & (groups[:, 0] == pair[0]) & (groups[:, 1] == pair[1])
+    for pair in np.unique(groups, axis=0):
+        mask = (groups[:, 0] == pair[0]) & (groups[:, 1] == pair[1])
         out[(int(pair[0]), int(pair[1]))] = part.edges[interior[mask]]
     return out
 
@@ -342,7 +351,6 @@ def _touching_seam_edges(part: Part, tolerance: float,
     if len(half) == 0:
         return {}
     V = part.vertices
-    vertices_of = {g: np.unique(part.faces[part.face_group == g]) for g in np.unique(group)}
     out: dict[tuple[int, int], list[np.ndarray]] = {}
     for b in np.unique(group):
         lower = group < b  # the boundary edges of every group A before B, queried at once
@@ -354,7 +362,7 @@ def _touching_seam_edges(part: Part, tolerance: float,
         near = tree.query(V[mine.reshape(-1)], distance_upper_bound=tolerance)[0].reshape(-1, 2)
         # an edge with a vertex of B's own faces continues B's boundary where the groups are welded
         # (the cap edge of a fillet beside a plane's), it does not face B across a gap
-        touching = np.isfinite(near).all(axis=1) & ~np.isin(mine, vertices_of[b]).any(axis=1)
+        touching = np.isfinite(near).all(axis=1) & ~part.touches_group(mine, b).reshape(-1, 2).any(axis=1)
         for a in np.unique(owner[touching]):
             out.setdefault((int(a), int(b)), []).append(mine[touching & (owner == a)])
     return {pair: np.vstack(edges) for pair, edges in out.items()}

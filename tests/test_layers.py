@@ -13,7 +13,7 @@ PACKAGE = ROOT / "surfcheck"
 
 # Top to bottom: a unit may import the units before it and itself, never one after it.
 LAYERS = [
-    "version", "errors", "part", "polyline", "validation", "seams",
+    "version", "errors", "progress", "part", "polyline", "validation", "seams",
     "geometry", "cad", "io", "summary",
     "segmentation", "grading", "blend", "review", "lots", "demo",
     "cli",

@@ -13,6 +13,7 @@ from pathlib import Path
 from surfcheck.errors import InputError
 from surfcheck.io import LoadResult, read_part
 from surfcheck.part import Part
+from surfcheck.progress import step
 from surfcheck.grading.document import parse_requirement, run_document
 from surfcheck.grading.run import GradeOptions, GradeRun, grade_part
 from surfcheck.grading.selection import Selection, select_seams
@@ -60,7 +61,8 @@ class GradeRequest:
         """The nominal part, read once for every part graded through it (None without one)."""
         if self.nominal is None:
             return None
-        return read_part(self.nominal, units=self.units, deflection=self.deflection, command=self.work(report)).part
+        with step(f"reading {Path(self.nominal).name}"):
+            return read_part(self.nominal, units=self.units, deflection=self.deflection, command=self.work(report)).part
 
 
 @dataclass(frozen=True)
@@ -92,13 +94,16 @@ def prepare_part(path: str | os.PathLike, request: GradeRequest, nominal: Part |
     PreparedPart
         The loaded part, the chosen seams and the method.
     """
-    loaded = read_part(Path(path), units=request.units, deflection=request.deflection, command=request.work(report))
+    with step(f"reading {Path(path).name}"):
+        loaded = read_part(Path(path), units=request.units, deflection=request.deflection, command=request.work(report))
     exact = (request.method or ("exact" if loaded.brep is not None else "mesh")) == "exact"
     if exact and loaded.brep is None:
         raise InputError(f"{path}: --method exact needs a STEP part (B-rep faces); a mesh is graded with --method mesh")
     if nominal is None:
         nominal = request.read_nominal(report)
-    return PreparedPart(loaded, select_seams(loaded.part, list(request.seams), nominal), exact)
+    with step("finding the seams"):
+        chosen = select_seams(loaded.part, list(request.seams), nominal)
+    return PreparedPart(loaded, chosen, exact)
 
 
 def grade_prepared(prepared: PreparedPart, request: GradeRequest, progress=iter) -> tuple[GradeRun, dict]:

@@ -9,6 +9,7 @@ from dataclasses import asdict, dataclass
 
 from surfcheck.errors import InputError
 from surfcheck.part import Part
+from surfcheck.progress import track
 from surfcheck.seams import Curve
 from surfcheck.grading.continuity import SeamGrade, StationResult, StationSides, fit_sides, grade_sides, seam_grade
 from surfcheck.grading.sections import Section, cut_sections
@@ -81,7 +82,7 @@ def grade_seam_run(part: Part, seam: Curve, profile: ToleranceProfile, options: 
     if not sections:
         return SeamRun(seam, (), None, f"no station has data on both sides of {' | '.join(seam.groups)}")
     stations = []
-    for section in sections:
+    for section in track(sections, f"{seam.id}: fitting both sides"):
         sides = fit_sides(section, options.search)
         stations.append(GradedStation(section, sides, grade_sides(section, sides, profile)))
     deflections = [s.deflection for s in sections if s.deflection is not None]

@@ -16,15 +16,16 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.sparse as sp
 from scipy.sparse.csgraph import dijkstra
 from scipy.spatial import cKDTree
 from scipy.stats import f as f_dist
 
 from surfcheck.errors import InputError
 from surfcheck.part import Part
+from surfcheck.progress import track
 from surfcheck.seams import Curve
 from surfcheck.polyline import cumulative_arc_length, ring
+from surfcheck.grading import nearby
 from surfcheck.grading.surface_cut import SPLINE_POINTS, SurfaceCut, cut_side, spline_through
 
 STRIP_EDGES = 10.0  # default half-width of the strip along the seam, in typical edge lengths
@@ -38,6 +39,8 @@ FINER_SIDE = 0.5  # a side sampled across the seam closer than this many typical
 # its own scale (common practice, no published source)
 SEAM_BORDER_ANGLE = np.radians(45.0)  # a border edge within this of the seam's tangent runs along it (common
 # practice, no published source)
+CUT_CONTEXT = 2.0  # a station's cut reads the triangles within this many section radii (its polyline's
+# pieces that leave the section's ball and come back stay joined)
 SPARSE_SIDE = 40  # a side whose strip gives fewer distinct section points is read from its surface
 _SEAM_FIT_DEGREE = 5
 
@@ -100,20 +103,6 @@ def station_positions(length: float, closed: bool, count: int | None = None, spa
     return length * (np.arange(n) + offset) / n
 
 
-def side_vertices(part: Part, group: str) -> np.ndarray:
-    """Sorted indices of the vertices of the group's faces."""
-    return np.unique(part.faces[part.face_group == part.group_index(group)])
-
-
-def border_edges(part: Part, group: str) -> np.ndarray:
-    """(k, 2) edges on the group's border: used by one face of the group and no other face of it (a
-    mesh boundary) or by faces of the group and of another group."""
-    in_group = (part.face_group == part.group_index(group)).astype(np.int64)
-    count_in = part.edge_faces @ in_group
-    border = (count_in >= 1) & ((count_in == 1) | (part.edge_face_count > count_in))
-    return part.edges[border]
-
-
 def _seam_border(part: Part, edges: np.ndarray, tangent: np.ndarray) -> np.ndarray:
     """Vertices of the border ``edges`` that run along the seam (within SEAM_BORDER_ANGLE of its
     ``tangent``): the border that faces the other side, not the cap across the part's end."""
@@ -124,11 +113,10 @@ def _seam_border(part: Part, edges: np.ndarray, tangent: np.ndarray) -> np.ndarr
 
 def typical_edge_length(part: Part, vertices: np.ndarray) -> float:
     """Median length of the edges that touch the given vertices."""
-    touch = np.isin(part.edges, vertices).any(axis=1)
-    lengths = part.edge_lengths[touch]
-    if len(lengths) == 0:
+    edges = nearby.edges_touching(part, np.unique(vertices))
+    if len(edges) == 0:
         raise InputError("the seam's vertices have no edges")
-    return float(np.median(lengths))
+    return float(np.median(np.linalg.norm(part.vertices[edges[:, 1]] - part.vertices[edges[:, 0]], axis=1)))
 
 
 def side_spacings(part: Part, seam: Curve, groups: tuple[int, int], h: float) -> tuple[float, float]:
@@ -137,13 +125,13 @@ def side_spacings(part: Part, seam: Curve, groups: tuple[int, int], h: float) ->
     (on an even mesh it is about 0.9 h), else ``h``. A patch whose rows are much closer than the part's
     edges is then fitted over windows of its own rows, not of the coarse side's edges (its curvature may
     change within a few of those)."""
-    edges = part.edges
-    at_seam = np.isin(edges, seam.vertices).any(axis=1)
+    seam_vertices = np.unique(seam.vertices)
+    faces = nearby.faces_around(part, seam_vertices)
     seam_samples = _SeamLocator(seam.points, seam.closed, 0.05 * h).tree
     scales = []
     for group in groups:
-        on_side = (part.edge_faces @ (part.face_group == group).astype(np.int64)) > 0
-        ring = np.setdiff1d(edges[at_seam & on_side], seam.vertices)
+        # every corner of a face of the side at a seam vertex is joined to that vertex by an edge of it
+        ring = np.setdiff1d(part.faces[faces[part.face_group[faces] == group]], seam_vertices)
         own = float(np.median(seam_samples.query(part.vertices[ring])[0])) if len(ring) else h
         scales.append(own if own < FINER_SIDE * h else h)
     return scales[0], scales[1]
@@ -167,9 +155,10 @@ def cut_sections(
     if len(seam.points) < 2:
         raise InputError(f"{seam.id}: a seam needs at least two points")
     group_a, group_b = seam.groups
-    ids_a, ids_b = side_vertices(part, group_a), side_vertices(part, group_b)
-    if len(ids_a) == 0 or len(ids_b) == 0:
-        raise InputError(f"{seam.id}: group {group_a if len(ids_a) == 0 else group_b!r} has no faces")
+    groups = (part.group_index(group_a), part.group_index(group_b))
+    for name, group in zip(seam.groups, groups):
+        if part.group_sizes[group] == 0:
+            raise InputError(f"{seam.id}: group {name!r} has no faces")
     h = typical_edge_length(part, seam.vertices)
     strip = STRIP_EDGES * h if strip is None else float(strip)
     reach = REACH_EDGES * h if reach is None else float(reach)
@@ -177,26 +166,26 @@ def cut_sections(
         raise InputError("the strip width and the reach must be positive lengths")
     # welded: the seam's vertices are shared by both sides (a seam between separate shells lists one
     # side's vertices, whichever side the request names first, so membership of both is the test)
-    welded = bool((np.isin(seam.vertices, ids_a) & np.isin(seam.vertices, ids_b)).mean() > 0.5)
+    welded = bool((part.touches_group(seam.vertices, groups[0])
+                   & part.touches_group(seam.vertices, groups[1])).mean() > 0.5)
     polyline = _SeamPolyline(seam.points, seam.closed)
     positions = station_positions(polyline.length, seam.closed, stations, spacing, 2.0 * strip)
     V = part.vertices
-    trees = (cKDTree(V[ids_a]), cKDTree(V[ids_b]))
     nearest_seam = _SeamLocator(seam.points, seam.closed, 0.25 * h)
-    border_b = None if welded else border_edges(part, group_b)
-    groups = (part.group_index(group_a), part.group_index(group_b))
     scales = side_spacings(part, seam, groups, h)
-    group_faces = [np.flatnonzero(part.face_group == g) for g in groups]
+    widest = CUT_CONTEXT * np.hypot(reach, strip) * 1.05
+    group_faces = [nearby.FacesNear(part, g, seam.points, widest) for g in groups]
     sections = []
-    for index, s in enumerate(positions):
+    for index, s in enumerate(track(positions, f"{seam.id}: cutting sections")):
         # along a tightly curved seam the strip narrows until the seam turns by MAX_STRIP_TURN over it
         turn = polyline.turn_near(s, strip)
         width = max(h, strip * min(1.0, MAX_STRIP_TURN / turn)) if turn > 0 else strip
         frame = polyline.local_fit(s, width + SEAM_FIT_EDGES * h, width + 2.0 * h)
         radius = np.hypot(reach, width) * 1.05
         mapped = []
-        for tree, ids in zip(trees, (ids_a, ids_b)):
-            near = ids[tree.query_ball_point(frame.origin, radius)]
+        ball = nearby.vertices_near(part, frame.origin, radius)
+        for group in groups:
+            near = ball[part.touches_group(ball, group)]
             path = _path_lengths(part, near, frame.origin, GEODESIC_SLACK * radius)
             coords, along, beside = frame.carry(V[near])
             inside = beside & polyline.within(s, along, 0.5 * h) & (np.abs(along) <= width)
@@ -205,7 +194,7 @@ def cut_sections(
             inside &= path <= GEODESIC_SLACK * np.linalg.norm(coords + along[:, None] * frame.tangent, axis=1) + 3.0 * h
             # and a point belongs to this station only if the seam point nearest to it does (on a
             # small loop the far side projects onto the station's tangent line, too)
-            inside &= nearest_seam.offset(V[near], s) <= width + h
+            inside[inside] = nearest_seam.offset(V[near[inside]], s) <= width + h
             mapped.append((near[inside], coords[inside]))
         border_data = mapped[1]  # side B's own vertices: its border is where its data meets the seam
         scale_of, floor_of, end_floor_of, deflection = list(scales), [0.0, 0.0], [(0.0,) * 4] * 2, None
@@ -233,7 +222,7 @@ def cut_sections(
             end_b = end_a
         else:
             ids, rel = border_data
-            on_border = np.isin(ids, _seam_border(part, border_b, frame.tangent))
+            on_border = np.isin(ids, _seam_border(part, nearby.group_border(part, ids, groups[1]), frame.tangent))
             pts = np.stack([rel[on_border] @ cross, rel[on_border] @ normal], axis=1)
             pts = pts[np.hypot(*pts.T) <= reach]
             if len(pts) == 0:
@@ -368,12 +357,13 @@ class _SeamLocator:
         return np.minimum(delta, self.length - delta) if self.closed else delta
 
 
-def _sparse_side(part: Part, faces: np.ndarray, frame: "_SeamFrame", ids: np.ndarray, rel: np.ndarray, h: float,
+def _sparse_side(part: Part, faces: nearby.FacesNear, frame: "_SeamFrame", ids: np.ndarray, rel: np.ndarray, h: float,
                  radius: float) -> SurfaceCut | None:
     """A side's data read from the surface where its carried strip (vertices ``ids`` at ``rel``) has
     fewer than SPARSE_SIDE distinct section points: where they line up along one curve (the rows of a CAD
     strip of long triangles), the spline through them; where there are too few for that (a plane
-    without interior vertices), the cut of the side's triangles ``faces``. None where the strip serves."""
+    without interior vertices), the cut of the side's triangles near the station (``faces``, those whose
+    boxes lie within CUT_CONTEXT radii). None where the strip serves."""
     resolution = 1e-3 * h
     in_plane = np.abs(rel @ frame.tangent) <= resolution
     ids, rel = ids[in_plane], rel[in_plane]
@@ -382,18 +372,18 @@ def _sparse_side(part: Part, faces: np.ndarray, frame: "_SeamFrame", ids: np.nda
         return None
     if distinct >= SPLINE_POINTS:  # None for scattered vertices (an irregular or noisy mesh): the fit takes them
         return spline_through(ids, rel, resolution, frame.tangent)
-    return cut_side(part, faces, frame.origin, frame.tangent, radius)
+    return cut_side(part, faces.within(frame.origin, CUT_CONTEXT * radius), frame.origin, frame.tangent, radius)
 
 
 def _path_lengths(part: Part, vertices: np.ndarray, origin: np.ndarray, limit: float) -> np.ndarray:
-    """Shortest path lengths along the mesh's edges among the vertices (Dijkstra on the induced
+    """Shortest path lengths along the mesh's edges among the sorted vertices (Dijkstra on the induced
     subgraph) from the one nearest ``origin``; inf beyond ``limit`` or where not connected."""
     if len(vertices) == 0:
         return np.zeros(0)
-    sub = part.vertex_adjacency[vertices][:, vertices].tocoo()
+    graph = nearby.half_edges_among(part, vertices)
     V = part.vertices
-    lengths = np.linalg.norm(V[vertices[sub.row]] - V[vertices[sub.col]], axis=1)
-    graph = sp.csr_matrix((lengths, (sub.row, sub.col)), shape=(len(vertices), len(vertices)))
+    row = np.repeat(np.arange(len(vertices)), np.diff(graph.indptr))
+    graph.data = np.linalg.norm(V[vertices[row]] - V[vertices[graph.indices]], axis=1)
     start = int(np.argmin(np.linalg.norm(V[vertices] - origin, axis=1)))
     return dijkstra(graph, directed=False, indices=start, limit=limit)
 

@@ -369,14 +369,18 @@ def _absorbed_fragments(mesh: ScanMesh, label: np.ndarray, rounds: int = 3) -> n
     for _ in range(rounds):
         piece = mesh.label_components(label)
         area = np.bincount(piece, weights=mesh.areas)
+        piece_label = np.empty(len(area), dtype=label.dtype)
+        piece_label[piece] = label
+        # per group its piece of largest area (the lowest-numbered of equal ones): the last in this order
+        order = np.lexsort((-np.arange(len(area)), area, piece_label))
+        last = np.append(piece_label[order][1:] != piece_label[order][:-1], True)
         main = np.zeros(len(area), dtype=bool)
-        for lab in np.unique(label):
-            pieces = np.unique(piece[label == lab])
-            main[pieces[np.argmax(area[pieces])]] = True
+        main[order[last]] = True
         stray = ~main[piece]
         if not stray.any():
             break
-        cross = stray[A.row] & (label[A.row] != label[A.col])
+        # a triangle left out of every group (label -1) gives no vote
+        cross = stray[A.row] & (label[A.row] != label[A.col]) & (label[A.col] >= 0)
         votes = sp.csr_matrix((np.ones(int(cross.sum())), (piece[A.row[cross]], label[A.col[cross]])),
                               shape=(len(area), int(label.max()) + 1)).toarray()
         target = np.argmax(votes, axis=1)

@@ -50,10 +50,15 @@ class ScanMesh:
     normal_noise: float
     scale: float
 
-    def distance(self, model: Primitive) -> np.ndarray:
-        """(m,) rms over each face's corners of their distance to the model."""
-        d = model.signed_distance(self.V)
-        return np.sqrt((d[self.F] ** 2).mean(axis=1))
+    def distance(self, model: Primitive, faces: np.ndarray | None = None) -> np.ndarray:
+        """(m,) rms over each face's corners of their distance to the model (of the faces given, when
+        given: only their corners are measured)."""
+        if faces is None:
+            d = model.signed_distance(self.V)[self.F]
+        else:
+            corners = self.F[faces]
+            d = model.signed_distance(self.V[corners.reshape(-1)]).reshape(corners.shape)
+        return np.sqrt((d ** 2).mean(axis=1))
 
     def angle(self, model: Primitive) -> np.ndarray:
         """(m,) angle (radians) between each face's smoothed normal and the model's normal there."""
@@ -323,14 +328,15 @@ def settle_leftovers(mesh: ScanMesh, label: np.ndarray, models: list[Primitive],
     if len(free) == 0:
         return label, freeform
     A = mesh.adjacency
-    for c in np.unique(comp[free]):
-        faces = free[comp[free] == c]
+    order = np.argsort(comp[free], kind="stable")  # the leftovers by piece, each piece's faces ascending
+    starts = np.flatnonzero(np.diff(comp[free][order], prepend=-1))
+    for faces in np.split(free[order], starts[1:]):
         neigh = np.unique(label[A[faces].indices])
         neigh = neigh[neigh >= 0]
         if len(neigh) == 0:
             freeform.append(faces)
             continue
-        dist = np.stack([mesh.distance(models[j])[faces] for j in neigh], axis=1)
+        dist = np.stack([mesh.distance(models[j], faces) for j in neigh], axis=1)
         explained = (dist.min(axis=1) < 2.0 * DISTANCE_SIGMAS * mesh.noise).mean() > 0.9
         if mesh.areas[faces].sum() < min_area or explained:
             label[faces] = neigh[np.argmin(dist, axis=1)]

@@ -176,7 +176,7 @@ def _band_primitive(mesh, faces: np.ndarray, models: list[Primitive | None]) -> 
     if any(m is None for m in models):
         return None
     model = max(models, key=lambda m: m.n_points)
-    rms = float(np.sqrt(np.mean(mesh.distance(model)[faces] ** 2)))
+    rms = float(np.sqrt(np.mean(mesh.distance(model, faces) ** 2)))
     return model if rms <= 1.2 * mesh.noise else None
 
 

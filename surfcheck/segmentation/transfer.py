@@ -27,6 +27,7 @@ from surfcheck.part import Part
 
 COARSE_ITERATIONS = 6
 CANDIDATE_FACES = 8
+CHUNK = 65536  # points whose candidate triangles are weighed at once
 MAX_SAMPLES = 10000
 POINT_WEIGHT = 0.2  # weight of the point-to-point rows beside the point-to-plane ones
 
@@ -170,30 +171,59 @@ def align(scan: Part, nominal: Part, max_iterations: int = 60) -> Alignment:
     return Alignment(T, rms, float(inliers.mean()), steps)
 
 
+class FaceLocator:
+    """The nearest triangle of a part to given points: a k-d tree over the triangles' centroids, built
+    once, and exact point-triangle distances among each point's CANDIDATE_FACES nearest centroids,
+    taken CHUNK points at a time (the candidates of millions of points at once would outweigh the part)."""
+
+    def __init__(self, part: Part) -> None:
+        self.part = part
+        self.tree = cKDTree(part.vertices[part.faces].mean(axis=1))
+        self._normals = None
+
+    @property
+    def face_normals(self) -> np.ndarray:
+        if self._normals is None:
+            self._normals = trimesh.Trimesh(self.part.vertices, self.part.faces, process=False).face_normals
+        return self._normals
+
+    def nearest(self, points: np.ndarray, normals: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """For each point, the nearest triangle and the distance to it; with ``normals``, candidates
+        facing the other way (normal dot < 0) are passed over unless no candidate faces the same way."""
+        face = np.empty(len(points), dtype=np.int64)
+        distance = np.empty(len(points))
+        for lo in range(0, len(points), CHUNK):
+            hi = min(lo + CHUNK, len(points))
+            face[lo:hi], distance[lo:hi] = self._nearest(points[lo:hi], None if normals is None else normals[lo:hi])
+        return face, distance
+
+    def _nearest(self, points: np.ndarray, normals: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+        part = self.part
+        k = min(CANDIDATE_FACES, part.n_faces)
+        _, cand = self.tree.query(points, k=k)
+        cand = cand.reshape(len(points), k)
+        tris = part.vertices[part.faces[cand.ravel()]]
+        foot = trimesh.triangles.closest_point(tris, np.repeat(points, k, axis=0))
+        dist = np.linalg.norm(foot - np.repeat(points, k, axis=0), axis=1).reshape(len(points), k)
+        if normals is not None:
+            facing = np.einsum("nki,ni->nk", self.face_normals[cand], normals) >= 0
+            facing[~facing.any(axis=1)] = True
+            dist_pick = np.where(facing, dist, np.inf)
+        else:
+            dist_pick = dist
+        col = np.argmin(dist_pick, axis=1)
+        rows = np.arange(len(points))
+        return cand[rows, col], dist[rows, col]
+
+
 def nearest_faces(part: Part, points: np.ndarray, normals: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """For each point, the nearest triangle of ``part`` and the distance to it.
+    """For each point, the nearest triangle of ``part`` and the distance to it (FaceLocator.nearest).
 
     Candidates are the CANDIDATE_FACES triangles with the nearest centroids; exact point-triangle
     distances pick among them. With ``normals``, candidates facing the other way (normal dot < 0) are
     passed over unless no candidate faces the same way.
     """
-    centroids = part.vertices[part.faces].mean(axis=1)
-    k = min(CANDIDATE_FACES, part.n_faces)
-    _, cand = cKDTree(centroids).query(points, k=k)
-    cand = cand.reshape(len(points), k)
-    tris = part.vertices[part.faces[cand.ravel()]]
-    foot = trimesh.triangles.closest_point(tris, np.repeat(points, k, axis=0))
-    dist = np.linalg.norm(foot - np.repeat(points, k, axis=0), axis=1).reshape(len(points), k)
-    if normals is not None:
-        face_normals = trimesh.Trimesh(part.vertices, part.faces, process=False).face_normals
-        facing = np.einsum("nki,ni->nk", face_normals[cand], normals) >= 0
-        facing[~facing.any(axis=1)] = True
-        dist_pick = np.where(facing, dist, np.inf)
-    else:
-        dist_pick = dist
-    col = np.argmin(dist_pick, axis=1)
-    rows = np.arange(len(points))
-    return cand[rows, col], dist[rows, col]
+    return FaceLocator(part).nearest(points, normals)
 
 
 def transfer_groups(nominal: Part, scan: Part, alignment: Alignment | None = None) -> Part:
@@ -207,9 +237,9 @@ def transfer_groups(nominal: Part, scan: Part, alignment: Alignment | None = Non
     mesh = trimesh.Trimesh(scan.vertices, scan.faces, process=False)
     centroids = alignment.apply(mesh.triangles_center)
     normals = mesh.face_normals @ alignment.matrix[:3, :3].T
-    nominal_normals = trimesh.Trimesh(nominal.vertices, nominal.faces, process=False).face_normals
-    face, _ = nearest_faces(nominal, centroids)
-    if np.median(np.einsum("ij,ij->i", nominal_normals[face], normals)) < 0:
+    locator = FaceLocator(nominal)
+    face, _ = locator.nearest(centroids)
+    if np.median(np.einsum("ij,ij->i", locator.face_normals[face], normals)) < 0:
         normals = -normals  # the scan's triangles are wound the other way round
-    face, _ = nearest_faces(nominal, centroids, normals)
+    face, _ = locator.nearest(centroids, normals)
     return scan.with_groups(nominal.face_group[face], nominal.group_names)

@@ -26,6 +26,7 @@ MIN_SAMPLES = 64  # samples of one side's cut at least (a plane is one long segm
 MAX_SAMPLES = 2000  # ... and at most
 END_FLOOR_INTERVALS = 5  # the spline's first intervals whose rates give the curvature's second derivative
 SPLINE_POINTS = 4  # distinct vertices a side needs to be interpolated rather than cut
+SLIVER = 1e-6  # a cut segment this much shorter than the longest has no direction (rounding)
 ZIGZAG_TURN = 0.02  # radians; a turn of the node polygon smaller than this has no direction
 CUT_WINDOW_SEGMENTS = 2.0  # fit scale of a cut side, in mean segments: its windows (3 scales) average
 # over the chords' kinks
@@ -49,6 +50,7 @@ class SurfaceCut:
     scale: float
     floor: float
     deflection: float  # the largest sagitta of the polygon the side was read from (chordal deflection)
+    step: float  # the sampling step across the seam it was read from: the mean cut segment or node spacing
     end_floor: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)  # least standard uncertainty of
     # offset, heading, curvature and rate at the seam (an interpolated side's unobserved first interval)
 
@@ -105,13 +107,14 @@ def cut_side(part: Part, faces: np.ndarray, origin: np.ndarray, plane_normal: np
     # half-width (JCGM 100:2008, 4.3.7), inflated for the samples that share one chord
     sagitta = _largest_sagitta(ends, links)
     floor = sagitta / np.sqrt(3.0) * np.sqrt(SAMPLES_PER_SEGMENT)
-    return SurfaceCut(points[inside] - origin, vertices[inside], CUT_WINDOW_SEGMENTS * scale, floor, sagitta)
+    return SurfaceCut(points[inside] - origin, vertices[inside], CUT_WINDOW_SEGMENTS * scale, floor, sagitta, scale)
 
 
 def _largest_sagitta(ends: np.ndarray, links: np.ndarray) -> float:
     """Largest c^2 kappa / 8 over the segments ``ends`` (k, 2, 3), kappa the turning between two
     segments that share a node (``links``: (k, 2) node of each end) divided by their mean length (the
     discrete curvature of a polygon)."""
+    ends, links = _without_slivers(ends, links)
     if len(ends) < 2:
         return 0.0
     lengths = np.linalg.norm(ends[:, 1] - ends[:, 0], axis=1)
@@ -125,6 +128,21 @@ def _largest_sagitta(ends: np.ndarray, links: np.ndarray) -> float:
     cos = np.abs(np.einsum("ij,ij->i", direction[i], direction[j]))
     kappa = np.arccos(np.clip(cos, -1.0, 1.0)) / (0.5 * (lengths[i] + lengths[j]))
     return float((np.maximum(lengths[i], lengths[j]) ** 2 * kappa).max() / 8.0)
+
+
+def _without_slivers(ends: np.ndarray, links: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The segments ``ends`` (k, 2, 3) and their node ``links`` (k, 2) with every sliver (a segment
+    shorter than SLIVER of the longest, left where the plane passes through a mesh vertex) collapsed
+    into one node: its direction is rounding error, and its neighbours then share that node, so the
+    polygon's turn there is read between them."""
+    lengths = np.linalg.norm(ends[:, 1] - ends[:, 0], axis=1)
+    sliver = lengths <= SLIVER * lengths.max(initial=0.0)
+    if not sliver.any():
+        return ends, links
+    nodes = int(links.max()) + 1
+    merged = sp.coo_matrix((np.ones(int(sliver.sum())), (links[sliver, 0], links[sliver, 1])), shape=(nodes, nodes))
+    _, node = connected_components(merged, directed=False)
+    return ends[~sliver], node[links[~sliver]]
 
 
 def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np.ndarray) -> SurfaceCut | None:
@@ -166,8 +184,9 @@ def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np
         spread = max(spread, float(np.sqrt(((spline(chord) - coarse_spline(chord)) ** 2).sum(axis=1).mean())) / 15.0)
     chords = np.stack([nodes[:-1], nodes[1:]], axis=1)
     consecutive = np.stack([np.arange(len(nodes) - 1), np.arange(1, len(nodes))], axis=1)
-    return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * float(chord[-1] / (len(nodes) - 1)),
-                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, consecutive),
+    step = float(chord[-1] / (len(nodes) - 1))
+    return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * step,
+                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, consecutive), step,
                       _end_floor(spline, coarse_spline, chord, axis))
 
 

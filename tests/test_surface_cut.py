@@ -38,3 +38,25 @@ def test_a_cut_through_a_planes_vertices_has_no_chordal_deflection():
         cut = cut_side(part, np.arange(len(part.faces)), origin, rotation.apply([0.0, 1.0, 0.0]), 20.0)
         assert cut is not None
         assert cut.deflection <= 1e-7 and cut.floor <= 1e-7, (seed, cut.deflection)
+
+
+def test_few_nodes_on_an_arc_state_the_end_headings_interpolation_error():
+    # A fillet band of four intervals over 30 degrees of a circle of radius 3.29 mm (a coarse regular
+    # mesh carries its rows onto five section points): too few nodes for Richardson's estimate. The
+    # true end tangent is the circle's, perpendicular to its radius at the seam point (elementary
+    # geometry); the stated heading uncertainty must cover the spline's end-tangent error at k = 2
+    # (it was 0 before, the error 0.022 degrees).
+    from scipy.interpolate import CubicSpline
+
+    from surfcheck.grading.surface_cut import spline_through
+
+    radius, axis = 3.29, np.array([0.0, 0.0, 1.0])
+    angles = np.radians(np.linspace(0.0, 30.0, 5))
+    rel = np.stack([radius * np.sin(angles), radius * (1.0 - np.cos(angles)), np.zeros(5)], axis=1)
+    cut = spline_through(np.arange(5), rel, 1e-6, axis)
+    assert cut is not None
+    chord = np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(rel, axis=0), axis=1))])
+    end = CubicSpline(chord, rel, axis=0, bc_type="not-a-knot")(0.0, 1)
+    error = abs(np.arctan2(end[1], end[0]))  # the circle's tangent at the seam point is +x
+    assert error > 1e-4  # radians: the interpolation error this checks is there
+    assert error <= 2.0 * cut.end_floor[1], (error, cut.end_floor[1])

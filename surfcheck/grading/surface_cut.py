@@ -227,6 +227,8 @@ def _end_floor(spline, coarse, chord: np.ndarray, axis: np.ndarray) -> tuple[flo
     change = float(abs(kappa[1] - kappa[0]))
     t1, t2 = float(chord[1]), float(chord[2])
     heading, curvature = _richardson_end(spline, coarse, float(kappa[0]), axis)
+    if coarse is None:  # too few nodes for Richardson's estimate of the heading
+        heading = _circle_end_turn(spline, spline(chord[:3]), axis)
     return (0.0, heading, max(min(second * t1 * t2 / 2.0, change), curvature),
             min(second * (t1 + t2) / 2.0, change / t1))
 
@@ -241,6 +243,25 @@ def _richardson_end(spline, coarse, fine_kappa: float, axis: np.ndarray) -> tupl
     turn = np.arctan2(np.cross(fine_tangent, coarse_tangent) @ axis, fine_tangent @ coarse_tangent)
     (coarse_kappa,), _ = _curvature_and_rate(coarse, np.zeros(1), axis)
     return float(abs(turn)) / 7.0, float(abs(fine_kappa - coarse_kappa)) / 3.0
+
+
+def _circle_end_turn(spline, first: np.ndarray, axis: np.ndarray) -> float:
+    """The angle (radians) between the spline's end tangent and that of the circle through its first
+    three nodes ``first`` (3, 3): a second estimate of the end heading, exact on an arc and of lower
+    order than the spline elsewhere, so their difference bounds the spline's error where there are
+    too few nodes for Richardson's estimate (on an arc fillet of four intervals over 30 degrees it is
+    the error itself: 0.022 degrees read as u = 0.0006 before)."""
+    a, b = first[1] - first[0], first[2] - first[0]
+    normal = np.cross(a, b)
+    area2 = float(normal @ normal)
+    if area2 <= (1e-12 * float(a @ a)) ** 2:
+        tangent = a
+    else:
+        centre = first[0] + np.cross((a @ a) * b - (b @ b) * a, normal) / (2.0 * area2)
+        tangent = np.cross(normal, first[0] - centre)
+        tangent *= np.sign(tangent @ a)
+    end = spline(0.0, 1)
+    return float(abs(np.arctan2(np.cross(end, tangent) @ axis, end @ tangent)))
 
 
 def _curvature_and_rate(spline, t: np.ndarray, axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -354,16 +354,20 @@ def blend(
     document = grade_document(merged.part, grades, profile, order,
                               {"from": chain_from, "to": chain_to, "order": order, "step": step, "reach": reach,
                                "resolution": result.spacing, "row_spacing": result.row_spacing,
-                               "problems": list(result.problems)})
+                               "seam_row_spacing": list(result.seam_row_spacing),
+                               "problems": list(result.problems), "notes": list(result.notes)})
     if as_json:
         print_json(document)
     else:
         for problem in result.problems:
             console.print(f"[red]problem:[/red] {problem}")
+        for note in result.notes:
+            console.print(f"[yellow]note:[/yellow] {note}")
         print_grades(document)
         written = [str(p) for p in (out_patch, merged_file) if p]
         console.print(f"patch: {len(result.vertices)} vertices, {len(result.faces)} triangles, columns "
-                      f"{_fmt(result.spacing)} and rows {_fmt(result.row_spacing)} {part_a.units} apart"
+                      f"{_fmt(result.spacing)} and rows {_fmt(result.row_spacing)} {part_a.units} apart "
+                      f"({' and '.join(_fmt(r) for r in result.seam_row_spacing)} near the seams)"
                       + (f"; written {', '.join(written)}" if written else ""))
     raise typer.Exit(1 if result.problems or document["verdict"] == "fail" else 0)
 

@@ -37,7 +37,19 @@ MAX_TURN_PER_EDGE = 0.5  # radians a section may turn over one edge length and s
 # rises to half its peak within about an eighth of the reach from each seam; measured on the demo gap
 # (docs/blend.md), 100 rows per reach let the grader read G3 there, 60 do not.
 ROWS_PER_REACH = 100
+# ... and at most the build-up / ROWS_PER_BUILDUP: the distance from a seam within which the patch's
+# section curvature (for K = 3 also its rate) changes by half its range, over which the grader reads G2
+# and G3 from fits of three rows and more (measured on irregular sides, benchmarks/blend_family.py and
+# docs/blend.md: over 3 to 5 rows it read G2 "not resolved" or failed G3 falsely; over 7.6 it read K)
+ROWS_PER_BUILDUP = 8
+BUILDUP_ZONE = 2.0  # those rows reach this many build-ups from each seam, then widen in geometric progression
 MAX_ROW_REFINEMENT = 4.0  # ... but rows no closer than the chains' edges / this (bounds the triangle count)
+MAX_SEAM_REFINEMENT = 12.0  # ... and near a seam the chains' edges / this (at a quarter, short legs left 3 to
+# 5 rows over the build-up)
+SAGITTA_ROWS = 15.0  # ... and this many times the chains' chord sagitta: across a curved chain's chords the
+# first row's triangles tilt off the surface (measured on a loop of r = 5 mm and 0.54 mm edges: 8.7 degrees
+# at 10 sagittas, 7.8 at 12, 7.5 at 12.7, the quarter-edge rows of before)
+BUILDUP_SAMPLES = 2049  # samples per column where the build-up is measured
 
 
 @dataclass(frozen=True)
@@ -88,6 +100,8 @@ class BlendResult:
     column_u: np.ndarray
     mapping: ChainMap
     problems: tuple[str, ...]
+    seam_row_spacing: tuple[float, float]  # rows within BUILDUP_ZONE build-ups of seam A, B; beyond, row_spacing
+    notes: tuple[str, ...] = ()  # what the grader cannot show on the patch as meshed, and which resolution would
 
 
 def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, order: int, step: str = "hermite",
@@ -103,8 +117,12 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     ``reach`` fixes both extensions' reach (part units); by default it is chosen per column from the
     gap and the turn (see default_reaches). ``resolution`` is the target edge length. By default the
     columns are the median edge length of the two chains apart, and the rows that or, where closer, the
-    shortest reach / ROWS_PER_REACH (not below the chains' edge / MAX_ROW_REFINEMENT): enough rows across
+    shortest reach / ROWS_PER_REACH (not below the chains' edge / MAX_ROW_REFINEMENT); within two
+    build-ups of each seam (curvature_buildup) at most the build-up / ROWS_PER_BUILDUP apart (not below
+    the chains' edge / MAX_SEAM_REFINEMENT), widening in geometric progression beyond: enough rows across
     the patch's curvature build-up at each seam for the mesh grader to read the order (docs/blend.md).
+    Where the floor leaves fewer rows over the build-up, ``notes`` states the resolution that would let
+    the order be shown.
 
     Parameters
     ----------
@@ -146,11 +164,16 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
     else:
         reach_a = reach_b = np.full(columns, float(reach))
     surface = BlendSurface(side_a, side_b, reach_a, reach_b, step, order)
+    buildup = curvature_buildup(surface, order) if order >= 2 else (np.inf, np.inf)
     row_spacing = resolution or float(np.clip(min(reach_a.min(), reach_b.min()) / ROWS_PER_REACH,
                                               spacing / MAX_ROW_REFINEMENT, spacing))
+    finest = max(spacing / MAX_SEAM_REFINEMENT, SAGITTA_ROWS * max(_chain_sagitta(chain_a), _chain_sagitta(chain_b)))
+    seam_rows = tuple(resolution or float(np.clip(b / ROWS_PER_BUILDUP, min(finest, row_spacing), row_spacing))
+                      for b in buildup)
     fine_t = np.linspace(0.0, 1.0, FINE_T)
     columns_fine = surface.derivative(fine_t[:, None])  # (FINE_T, columns, 3)
-    t_rows = _rows_of_equal_arc_length(columns_fine, fine_t, row_spacing)
+    zones = tuple(BUILDUP_ZONE * b if np.isfinite(b) else 0.0 for b in buildup)
+    t_rows = _rows_of_equal_arc_length(columns_fine, fine_t, row_spacing, seam_rows, zones)
     interior = surface.derivative(t_rows[1:-1]).reshape(-1, 3)
     V, F, row_a, row_b, vertex_u = _triangulate(chain_a, chain_b, interior, u, s_a, mapping.inverse(s_b))
     flip = boundary_direction(part_a, chain_a) > 0  # the patch must run along chain A against part A
@@ -162,8 +185,48 @@ def build_blend(part_a: Part, chain_a: Curve, part_b: Part, chain_b: Curve, orde
                          "across the gap; reorient one part so that their normals agree")
     problems = _column_problems(columns_fine, surface, chain_a, u, part_a.units, row_spacing)
     problems += _mesh_problems(part_a, chain_a, part_b, chain_b, V, F, row_a, row_b, vertex_u, surface, u)
+    notes = _proof_notes(buildup, seam_rows, (chain_a, chain_b), part_a.units)
     return BlendResult(V, F, row_a, row_b, chain_a, chain_b, order, step, spacing, row_spacing, surface, u, mapping,
-                       tuple(problems))
+                       tuple(problems), seam_rows, notes)
+
+
+def curvature_buildup(surface: BlendSurface, order: int, samples: int = BUILDUP_SAMPLES) -> tuple[float, float]:
+    """Per seam (A at t = 0, B at t = 1) the shortest cross arc length, over the columns and the
+    quantities the grader must read for G2..G``order`` (the section curvature |P' x P''| / |P'|^3, do
+    Carmo 1976, sec. 1-5, and for G3 its rate per arc length), from the seam to where the quantity has
+    changed from its value at that seam by half its largest change along the column (inf where it does
+    not change): the length over which the mesh grader must read the patch's build-up."""
+    t = np.linspace(0.0, 1.0, samples)
+    d1, d2 = surface.derivative(t[:, None], 1), surface.derivative(t[:, None], 2)
+    speed = np.linalg.norm(d1, axis=2)
+    kappa = np.linalg.norm(np.cross(d1, d2), axis=2) / speed**3
+    arc = np.vstack([np.zeros(speed.shape[1]), np.cumsum(0.5 * (speed[1:] + speed[:-1]), axis=0) / (samples - 1)])
+    quantities = [kappa] + ([np.gradient(kappa, t, axis=0) / speed] if order >= 3 else [])
+    out = []
+    for flip in (False, True):
+        lengths = []
+        for q in quantities:
+            q, s = (q[::-1], arc[-1] - arc[::-1]) if flip else (q, arc)
+            change = np.abs(q - q[0])
+            largest = change.max(axis=0)
+            first = np.argmax(change >= 0.5 * largest, axis=0)
+            lengths.append(np.where(largest > 0.0, s[first, np.arange(s.shape[1])], np.inf).min())
+        out.append(float(min(lengths)))
+    return out[0], out[1]
+
+
+def _proof_notes(buildup: tuple[float, float], seam_rows: tuple[float, float], chains: tuple[Curve, Curve],
+                 units: str) -> tuple[str, ...]:
+    """What the grader cannot show on the patch as meshed, one line per seam: where the curvature
+    builds up over fewer than ROWS_PER_BUILDUP rows, the resolution that would let it be shown."""
+    notes = []
+    for length, row_spacing, chain in zip(buildup, seam_rows, chains):
+        if length < ROWS_PER_BUILDUP * row_spacing:
+            notes.append(f"at {chain.id} the patch's curvature (or its rate) changes by half its range within {length:.3g} {units}, "
+                         f"{length / row_spacing:.1f} rows of {row_spacing:.3g} {units}; the grader reads G2 and G3 "
+                         f"there from about {ROWS_PER_BUILDUP} rows over that length: --resolution "
+                         f"{length / ROWS_PER_BUILDUP:.2g} would let them be shown (or widen the gap)")
+    return tuple(notes)
 
 
 def default_reaches(side_a: Extension, side_b: Extension) -> tuple[np.ndarray, np.ndarray]:
@@ -213,16 +276,41 @@ def _check_request(part_a, chain_a, part_b, chain_b, order, step, reach, resolut
             raise InputError(f"{name} must be a positive length, not {value!r}")
 
 
+def _chain_sagitta(chain: Curve) -> float:
+    """The largest sagitta c * turn / 8 of the chain's edges (c their length, turn the angle between
+    neighbouring edges: the chord height of a circle through three points, to first order)."""
+    P = chain.points
+    edges = np.roll(P, -1, axis=0) - P if chain.closed else np.diff(P, axis=0)
+    if len(edges) < 2:
+        return 0.0
+    lengths = np.linalg.norm(edges, axis=1)
+    first, second = (edges, np.roll(edges, -1, axis=0)) if chain.closed else (edges[:-1], edges[1:])
+    l1, l2 = (lengths, np.roll(lengths, -1)) if chain.closed else (lengths[:-1], lengths[1:])
+    turn = np.arccos(np.clip(np.einsum("ij,ij->i", first, second) / (l1 * l2), -1.0, 1.0))
+    return float((np.maximum(l1, l2) * turn).max() / 8.0)
+
+
 def _edge_lengths(chain: Curve) -> np.ndarray:
     return segment_lengths(chain.points, chain.closed)
 
 
-def _rows_of_equal_arc_length(samples: np.ndarray, t: np.ndarray, spacing: float) -> np.ndarray:
-    """(rows, columns) values of t at equal cross arc length along each column, first 0 and last 1."""
+def _rows_of_equal_arc_length(samples: np.ndarray, t: np.ndarray, spacing: float,
+                              near: tuple[float, float] | None = None,
+                              zones: tuple[float, float] = (0.0, 0.0)) -> np.ndarray:
+    """(rows, columns) values of t along each column, first 0 and last 1, at cross arc lengths ``spacing``
+    apart, or ``near`` (per seam, A at t = 0) apart within ``zones`` (arc length) of each seam and,
+    beyond, apart in proportion to the distance from it up to ``spacing`` (rows in geometric progression)."""
     steps = np.linalg.norm(np.diff(samples, axis=0), axis=2)
     arc = np.vstack([np.zeros(steps.shape[1]), np.cumsum(steps, axis=0)])
-    rows = max(5, int(np.ceil(arc[-1].mean() / spacing)) + 1)
-    target = np.linspace(0.0, 1.0, rows)[:, None] * arc[-1]
+    length = float(arc[-1].mean())
+    near = (spacing, spacing) if near is None else near
+    x = np.linspace(0.0, length, 20001)
+    step = np.full_like(x, spacing)
+    for distance, zone, first in ((x, zones[0], near[0]), (length - x, zones[1], near[1])):
+        step = np.minimum(step, np.maximum(first, first * distance / max(zone, 1e-300)))
+    count = np.concatenate([[0.0], np.cumsum(0.5 * (1.0 / step[1:] + 1.0 / step[:-1]) * np.diff(x))])
+    rows = max(5, int(np.ceil(count[-1])) + 1)
+    target = np.interp(np.linspace(0.0, count[-1], rows), count, x)[:, None] / length * arc[-1]
     out = np.empty((rows, arc.shape[1]))
     for c in range(arc.shape[1]):  # one column of stations at a time
         out[:, c] = np.interp(target[:, c], arc[:, c], t)

@@ -198,12 +198,14 @@ def cut_sections(
             mapped.append((near[inside], coords[inside]))
         border_data = mapped[1]  # side B's own vertices: its border is where its data meets the seam
         scale_of, floor_of, end_floor_of, deflection = list(scales), [0.0, 0.0], [(0.0,) * 4] * 2, None
+        step_b = h  # side B's sampling step across the seam
         for side, faces in enumerate(group_faces):
             cut = _sparse_side(part, faces, frame, *mapped[side], h, radius)
             if cut is not None:
                 mapped[side] = (cut.vertices, cut.points)
                 scale_of[side], floor_of[side], end_floor_of[side] = cut.scale, cut.floor, cut.end_floor
                 deflection = max(deflection or 0.0, cut.deflection)
+                step_b = cut.step if side == 1 else step_b
         (near_a, rel_a), (near_b, rel_b) = mapped
         if len(near_a) == 0 or len(near_b) == 0:
             continue
@@ -227,8 +229,10 @@ def cut_sections(
             pts = pts[np.hypot(*pts.T) <= reach]
             if len(pts) == 0:
                 continue
+            # the nearest of side B's border points and those within half its step across the seam
+            # (the far border of a band one or two triangles wide is not its seam's end)
             dist = np.hypot(*pts.T)
-            end_b = pts[dist <= dist.min() + 0.5 * h].mean(axis=0)
+            end_b = pts[dist <= dist.min() + 0.5 * min(h, step_b)].mean(axis=0)
         sections.append(Section(index, float(s), frame.origin, frame.tangent, normal, cross,
                                 xy_a[keep_a], xy_b[keep_b], near_a[keep_a], near_b[keep_b],
                                 end_a, end_b, welded, h, (scale_of[0], scale_of[1]),

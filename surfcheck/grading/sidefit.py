@@ -138,7 +138,7 @@ def polynomial_fits(t: np.ndarray, w: np.ndarray, windows: np.ndarray, max_degre
     rss = (resid**2).sum(axis=1)[:, None] + np.concatenate([tail[:, 1:], np.zeros((len(windows), 1))], axis=1)
     diag = np.abs(np.diagonal(R, axis1=1, axis2=2))
     full_rank = np.minimum.accumulate(diag, axis=1) >= 1e-9 * np.maximum(diag[:, :1], 1e-300)
-    spread = np.array([len(np.unique(np.floor(t[m] / W * SPREAD_BINS))) for m, W in zip(mask, windows)])
+    spread = np.array([_distinct_abscissae(t[m] / W) for m, W in zip(mask, windows)])
     ok = (count[:, None] >= np.arange(1, P + 1) + MIN_DOF) & (spread[:, None] >= np.arange(1, P + 1)) & full_rank
     R = R + np.eye(P) * np.where(full_rank, 0.0, 1.0)[:, None, :]  # unused degrees: keep R invertible
     Rinv = np.triu(np.linalg.inv(R))
@@ -161,6 +161,13 @@ def _powers(x: np.ndarray, P: int) -> np.ndarray:
     for j in range(1, P):
         np.multiply(out[..., j - 1], x, out=out[..., j])
     return out
+
+
+def _distinct_abscissae(x: np.ndarray) -> int:
+    """How many places the abscissae ``x`` (in window units) occupy, told apart at 1/SPREAD_BINS: the
+    occupied bins of that width, on the grid that splits fewer of them of two grids half a bin apart
+    (rows of a mesh carried into the section are tight clusters; one astride a bin edge is one place)."""
+    return min(len(np.unique(np.floor(x * SPREAD_BINS + shift))) for shift in (0.0, 0.5))
 
 
 def curve_quantities(b: np.ndarray, k0: float, k1: float) -> np.ndarray:

@@ -26,6 +26,7 @@ MIN_SAMPLES = 64  # samples of one side's cut at least (a plane is one long segm
 MAX_SAMPLES = 2000  # ... and at most
 END_FLOOR_INTERVALS = 5  # the spline's first intervals whose rates give the curvature's second derivative
 SPLINE_POINTS = 4  # distinct vertices a side needs to be interpolated rather than cut
+SLIVER = 1e-6  # a cut segment this much shorter than the longest has no direction (rounding)
 ZIGZAG_TURN = 0.02  # radians; a turn of the node polygon smaller than this has no direction
 CUT_WINDOW_SEGMENTS = 2.0  # fit scale of a cut side, in mean segments: its windows (3 scales) average
 # over the chords' kinks
@@ -49,6 +50,7 @@ class SurfaceCut:
     scale: float
     floor: float
     deflection: float  # the largest sagitta of the polygon the side was read from (chordal deflection)
+    step: float  # the sampling step across the seam it was read from: the mean cut segment or node spacing
     end_floor: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)  # least standard uncertainty of
     # offset, heading, curvature and rate at the seam (an interpolated side's unobserved first interval)
 
@@ -105,13 +107,14 @@ def cut_side(part: Part, faces: np.ndarray, origin: np.ndarray, plane_normal: np
     # half-width (JCGM 100:2008, 4.3.7), inflated for the samples that share one chord
     sagitta = _largest_sagitta(ends, links)
     floor = sagitta / np.sqrt(3.0) * np.sqrt(SAMPLES_PER_SEGMENT)
-    return SurfaceCut(points[inside] - origin, vertices[inside], CUT_WINDOW_SEGMENTS * scale, floor, sagitta)
+    return SurfaceCut(points[inside] - origin, vertices[inside], CUT_WINDOW_SEGMENTS * scale, floor, sagitta, scale)
 
 
 def _largest_sagitta(ends: np.ndarray, links: np.ndarray) -> float:
     """Largest c^2 kappa / 8 over the segments ``ends`` (k, 2, 3), kappa the turning between two
     segments that share a node (``links``: (k, 2) node of each end) divided by their mean length (the
     discrete curvature of a polygon)."""
+    ends, links = _without_slivers(ends, links)
     if len(ends) < 2:
         return 0.0
     lengths = np.linalg.norm(ends[:, 1] - ends[:, 0], axis=1)
@@ -125,6 +128,21 @@ def _largest_sagitta(ends: np.ndarray, links: np.ndarray) -> float:
     cos = np.abs(np.einsum("ij,ij->i", direction[i], direction[j]))
     kappa = np.arccos(np.clip(cos, -1.0, 1.0)) / (0.5 * (lengths[i] + lengths[j]))
     return float((np.maximum(lengths[i], lengths[j]) ** 2 * kappa).max() / 8.0)
+
+
+def _without_slivers(ends: np.ndarray, links: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The segments ``ends`` (k, 2, 3) and their node ``links`` (k, 2) with every sliver (a segment
+    shorter than SLIVER of the longest, left where the plane passes through a mesh vertex) collapsed
+    into one node: its direction is rounding error, and its neighbours then share that node, so the
+    polygon's turn there is read between them."""
+    lengths = np.linalg.norm(ends[:, 1] - ends[:, 0], axis=1)
+    sliver = lengths <= SLIVER * lengths.max(initial=0.0)
+    if not sliver.any():
+        return ends, links
+    nodes = int(links.max()) + 1
+    merged = sp.coo_matrix((np.ones(int(sliver.sum())), (links[sliver, 0], links[sliver, 1])), shape=(nodes, nodes))
+    _, node = connected_components(merged, directed=False)
+    return ends[~sliver], node[links[~sliver]]
 
 
 def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np.ndarray) -> SurfaceCut | None:
@@ -166,8 +184,9 @@ def spline_through(ids: np.ndarray, rel: np.ndarray, resolution: float, axis: np
         spread = max(spread, float(np.sqrt(((spline(chord) - coarse_spline(chord)) ** 2).sum(axis=1).mean())) / 15.0)
     chords = np.stack([nodes[:-1], nodes[1:]], axis=1)
     consecutive = np.stack([np.arange(len(nodes) - 1), np.arange(1, len(nodes))], axis=1)
-    return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * float(chord[-1] / (len(nodes) - 1)),
-                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, consecutive),
+    step = float(chord[-1] / (len(nodes) - 1))
+    return SurfaceCut(points, ids[order][nearest], SPLINE_WINDOW_NODES * step,
+                      spread * np.sqrt(samples / len(nodes)), _largest_sagitta(chords, consecutive), step,
                       _end_floor(spline, coarse_spline, chord, axis))
 
 
@@ -208,6 +227,8 @@ def _end_floor(spline, coarse, chord: np.ndarray, axis: np.ndarray) -> tuple[flo
     change = float(abs(kappa[1] - kappa[0]))
     t1, t2 = float(chord[1]), float(chord[2])
     heading, curvature = _richardson_end(spline, coarse, float(kappa[0]), axis)
+    if coarse is None:  # too few nodes for Richardson's estimate of the heading
+        heading = _circle_end_turn(spline, spline(chord[:3]), axis)
     return (0.0, heading, max(min(second * t1 * t2 / 2.0, change), curvature),
             min(second * (t1 + t2) / 2.0, change / t1))
 
@@ -222,6 +243,25 @@ def _richardson_end(spline, coarse, fine_kappa: float, axis: np.ndarray) -> tupl
     turn = np.arctan2(np.cross(fine_tangent, coarse_tangent) @ axis, fine_tangent @ coarse_tangent)
     (coarse_kappa,), _ = _curvature_and_rate(coarse, np.zeros(1), axis)
     return float(abs(turn)) / 7.0, float(abs(fine_kappa - coarse_kappa)) / 3.0
+
+
+def _circle_end_turn(spline, first: np.ndarray, axis: np.ndarray) -> float:
+    """The angle (radians) between the spline's end tangent and that of the circle through its first
+    three nodes ``first`` (3, 3): a second estimate of the end heading, exact on an arc and of lower
+    order than the spline elsewhere, so their difference bounds the spline's error where there are
+    too few nodes for Richardson's estimate (on an arc fillet of four intervals over 30 degrees it is
+    the error itself: 0.022 degrees read as u = 0.0006 before)."""
+    a, b = first[1] - first[0], first[2] - first[0]
+    normal = np.cross(a, b)
+    area2 = float(normal @ normal)
+    if area2 <= (1e-12 * float(a @ a)) ** 2:
+        tangent = a
+    else:
+        centre = first[0] + np.cross((a @ a) * b - (b @ b) * a, normal) / (2.0 * area2)
+        tangent = np.cross(normal, first[0] - centre)
+        tangent *= np.sign(tangent @ a)
+    end = spline(0.0, 1)
+    return float(abs(np.arctan2(np.cross(end, tangent) @ axis, end @ tangent)))
 
 
 def _curvature_and_rate(spline, t: np.ndarray, axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
